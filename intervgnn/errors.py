@@ -1,0 +1,73 @@
+"""Exceptions raised by intervgnn.
+
+Every error a user can trigger derives from :class:`IntervgnnError` and from
+the built-in exception that describes its kind (``ValueError`` for bad
+values, ``KeyError`` is never used so messages print without quotes).
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "IntervgnnError",
+    "GraphError",
+    "UnknownVariableError",
+    "NetworkError",
+    "UnknownNetworkError",
+    "BIFParseError",
+    "DataError",
+    "QueryError",
+    "ZeroEvidenceError",
+]
+
+
+class IntervgnnError(Exception):
+    """Base class of every error intervgnn raises on bad input."""
+
+
+class GraphError(IntervgnnError, ValueError):
+    """A causal graph is malformed (cycle, self-loop, duplicate edge)."""
+
+
+class UnknownVariableError(GraphError):
+    """A variable name is not part of the graph or network."""
+
+
+class NetworkError(IntervgnnError, ValueError):
+    """A Bayesian network's states or CPTs are invalid."""
+
+
+class UnknownNetworkError(IntervgnnError, ValueError):
+    """A network name is neither in the catalog nor an existing BIF file."""
+
+
+class BIFParseError(IntervgnnError, ValueError):
+    """A BIF file could not be read; carries the file and line number.
+
+    Parameters
+    ----------
+    message : str
+        What was wrong.
+    source : str
+        File path (or ``"<string>"``).
+    line : int
+        1-based line number where the problem was found.
+    """
+
+    def __init__(self, message: str, source: str = "<string>", line: int | None = None):
+        self.message = message
+        self.source = source
+        self.line = line
+        where = f"{source}, line {line}" if line is not None else source
+        super().__init__(f"{where}: {message}")
+
+
+class DataError(IntervgnnError, ValueError):
+    """Rows of data do not fit the declared variables and states."""
+
+
+class QueryError(IntervgnnError, ValueError):
+    """A query is malformed: unknown variable or state, overlapping roles."""
+
+
+class ZeroEvidenceError(QueryError):
+    """The evidence of a conditional query has probability zero."""

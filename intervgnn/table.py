@@ -1,0 +1,477 @@
+"""Discrete data: integer codes plus state names, with a per-row regime.
+
+A :class:`Table` holds ``n`` rows over named discrete variables. Each value
+is stored as an integer code into its variable's list of state names. Each
+row also records its *regime*: which variables were set by an intervention
+in that row (all ``False`` for an observational row).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import os
+from collections.abc import Iterable, Mapping, Sequence
+
+import numpy as np
+
+from .errors import DataError
+
+__all__ = ["Table", "REGIME_COLUMN", "REGIME_SEPARATOR"]
+
+#: Default name of the CSV column that lists a row's intervened variables.
+REGIME_COLUMN = "regime"
+#: Separator between variable names inside the regime column.
+REGIME_SEPARATOR = ";"
+
+
+def _normalise_states(variables: Sequence[str], states) -> dict[str, tuple[str, ...]]:
+    if isinstance(states, Mapping):
+        missing = [v for v in variables if v not in states]
+        if missing:
+            raise DataError(f"no states given for variable '{missing[0]}'")
+        out = {v: tuple(str(s) for s in states[v]) for v in variables}
+    else:
+        states = list(states)
+        if len(states) != len(variables):
+            raise DataError(f"{len(variables)} variables but {len(states)} state lists")
+        out = {v: tuple(str(s) for s in st) for v, st in zip(variables, states)}
+    for v, st in out.items():
+        if len(st) == 0:
+            raise DataError(f"variable '{v}' has no states")
+        if len(set(st)) != len(st):
+            dup = next(s for s in st if st.count(s) > 1)
+            raise DataError(f"variable '{v}' lists state '{dup}' twice")
+    return out
+
+
+class Table:
+    """Rows of discrete data over named variables.
+
+    Parameters
+    ----------
+    codes : array_like of int, shape ``[n, V]``
+        ``codes[r, j]`` indexes ``states[variables[j]]``.
+    variables : sequence of str
+        Column names, in column order.
+    states : mapping or sequence
+        State names per variable (a mapping by name, or a sequence aligned
+        with ``variables``).
+    intervened : array_like of bool, shape ``[n, V]``, optional
+        ``intervened[r, j]`` is True when variable ``j`` was set by an
+        intervention in row ``r``. Defaults to all False (observational).
+
+    Raises
+    ------
+    DataError
+        On duplicate variables, duplicate state names, a code out of range
+        (the message names row and column), or misshapen arrays.
+
+    Examples
+    --------
+    >>> t = Table.from_labels({"Pump": ["day", "night", "night"]}, states={"Pump": ["day", "night"]})
+    >>> t.column("Pump").tolist()
+    [0, 1, 1]
+    >>> t.labels("Pump")
+    ['day', 'night', 'night']
+    """
+
+    def __init__(self, codes, variables: Sequence[str], states, intervened=None):
+        variables = tuple(str(v) for v in variables)
+        if len(set(variables)) != len(variables):
+            dup = next(v for v in variables if variables.count(v) > 1)
+            raise DataError(f"column '{dup}' appears twice")
+        self._variables = variables
+        self._states = _normalise_states(variables, states)
+        arr = np.asarray(codes)
+        if arr.size == 0:
+            arr = arr.reshape(-1, len(variables))
+        if arr.ndim != 2 or arr.shape[1] != len(variables):
+            raise DataError(f"codes must have shape [rows, {len(variables)}], got {tuple(arr.shape)}")
+        if not np.issubdtype(arr.dtype, np.integer):
+            raise DataError(f"codes must be integers, got dtype {arr.dtype}")
+        arr = arr.astype(np.int64, order="K", copy=True)
+        if arr.shape[0]:
+            cards = np.array([len(self._states[v]) for v in variables])
+            low, high = arr.min(axis=0), arr.max(axis=0)
+            for j in np.flatnonzero((low < 0) | (high >= cards)):
+                v, k = variables[j], int(cards[j])
+                r = int(np.flatnonzero((arr[:, j] < 0) | (arr[:, j] >= k))[0])
+                raise DataError(
+                    f"row {r + 1}, column '{v}': code {int(arr[r, j])} is out of range for {k} states"
+                )
+        if intervened is None:
+            mask = np.zeros(arr.shape, dtype=bool)
+        else:
+            mask = np.array(intervened, dtype=bool)
+            if mask.shape != arr.shape:
+                raise DataError(f"intervened mask has shape {mask.shape}, expected {arr.shape}")
+        arr.setflags(write=False)
+        mask.setflags(write=False)
+        self._codes = arr
+        self._intervened = mask
+        self._col = {v: j for j, v in enumerate(variables)}
+
+    @classmethod
+    def _trusted(cls, codes: np.ndarray, variables, states, intervened: np.ndarray) -> Table:
+        """Wrap arrays produced by intervgnn itself, without copying or checking them."""
+        self = cls.__new__(cls)
+        self._variables = tuple(variables)
+        self._states = {v: tuple(states[v]) for v in self._variables}
+        codes.setflags(write=False)
+        intervened.setflags(write=False)
+        self._codes = codes
+        self._intervened = intervened
+        self._col = {v: j for j, v in enumerate(self._variables)}
+        return self
+
+    # --------------------------------------------------------------- basics
+    @property
+    def variables(self) -> tuple[str, ...]:
+        return self._variables
+
+    @property
+    def states(self) -> dict[str, tuple[str, ...]]:
+        """State names per variable (a fresh dict)."""
+        return dict(self._states)
+
+    @property
+    def cardinalities(self) -> tuple[int, ...]:
+        return tuple(len(self._states[v]) for v in self._variables)
+
+    @property
+    def codes(self) -> np.ndarray:
+        """Read-only integer codes, shape ``[n, V]``."""
+        return self._codes
+
+    @property
+    def intervened(self) -> np.ndarray:
+        """Read-only regime mask, shape ``[n, V]``."""
+        return self._intervened
+
+    @property
+    def n_rows(self) -> int:
+        return self._codes.shape[0]
+
+    def __len__(self) -> int:
+        return self._codes.shape[0]
+
+    def __repr__(self) -> str:
+        n_exp = int(self._intervened.any(axis=1).sum())
+        return f"Table(rows={self.n_rows}, variables={len(self._variables)}, experimental_rows={n_exp})"
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, Table):
+            return NotImplemented
+        return (
+            self._variables == other._variables
+            and self._states == other._states
+            and np.array_equal(self._codes, other._codes)
+            and np.array_equal(self._intervened, other._intervened)
+        )
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def _check_column(self, name: str) -> int:
+        if name not in self._col:
+            raise DataError(f"unknown column '{name}'; the table has: {', '.join(sorted(self._variables))}")
+        return self._col[name]
+
+    def column(self, name: str) -> np.ndarray:
+        """Codes of one variable, shape ``[n]``."""
+        return self._codes[:, self._check_column(name)]
+
+    def labels(self, name: str) -> list[str]:
+        """State names of one variable, one per row."""
+        st = self._states[name] if name in self._states else None
+        codes = self.column(name)
+        return [st[c] for c in codes.tolist()]  # type: ignore[index]
+
+    @property
+    def is_observational(self) -> bool:
+        """True when no row has an intervened variable."""
+        return not bool(self._intervened.any())
+
+    def regimes(self) -> list[tuple[str, ...]]:
+        """The distinct intervened sets present, observational ``()`` first if present."""
+        uniq = np.unique(self._intervened, axis=0) if self.n_rows else np.zeros((0, len(self._variables)), bool)
+        out = [tuple(v for v, m in zip(self._variables, row) if m) for row in uniq]
+        return sorted(out, key=lambda r: (len(r), r))
+
+    # ----------------------------------------------------------- selection
+    def take(self, rows) -> Table:
+        """A new table with the given rows (indices or boolean mask)."""
+        rows = np.asarray(rows)
+        return Table(self._codes[rows], self._variables, self._states, self._intervened[rows])
+
+    def select(self, variables: Iterable[str]) -> Table:
+        """A new table with only the given columns (in the order given)."""
+        cols = [self._check_column(v) for v in variables]
+        names = [self._variables[j] for j in cols]
+        return Table(self._codes[:, cols], names, {v: self._states[v] for v in names}, self._intervened[:, cols])
+
+    def observational_rows(self) -> Table:
+        """The rows with no intervened variable."""
+        return self.take(~self._intervened.any(axis=1))
+
+    def split(self, fraction: float, seed: int | None = None) -> tuple[Table, Table]:
+        """Shuffle the rows with ``seed`` and split them ``fraction : 1 - fraction``."""
+        if not 0.0 < fraction < 1.0:
+            raise DataError(f"fraction must lie strictly between 0 and 1, got {fraction}")
+        order = np.random.default_rng(seed).permutation(self.n_rows)
+        cut = int(round(fraction * self.n_rows))
+        return self.take(order[:cut]), self.take(order[cut:])
+
+    @classmethod
+    def concat(cls, tables: Sequence[Table]) -> Table:
+        """Stack tables with identical variables and states."""
+        tables = list(tables)
+        if not tables:
+            raise DataError("nothing to concatenate")
+        first = tables[0]
+        for t in tables[1:]:
+            if t._variables != first._variables or t._states != first._states:
+                raise DataError("tables to concatenate must have the same variables and states")
+        return cls(
+            np.concatenate([t._codes for t in tables]),
+            first._variables,
+            first._states,
+            np.concatenate([t._intervened for t in tables]),
+        )
+
+    # ------------------------------------------------------------- builders
+    @classmethod
+    def from_labels(
+        cls,
+        columns: Mapping[str, Sequence[object]],
+        states: Mapping[str, Sequence[str]] | None = None,
+        intervened: Sequence[Iterable[str]] | None = None,
+    ) -> Table:
+        """Build from columns of state names.
+
+        Parameters
+        ----------
+        columns : mapping of str to sequence
+            Column name to one state name per row.
+        states : mapping, optional
+            Declared states per variable. Without it, each variable's states
+            are the distinct values found, sorted.
+        intervened : sequence of iterables of str, optional
+            Per row, the names of the variables set by intervention.
+
+        Raises
+        ------
+        DataError
+            Missing or extra column, unknown state or missing value (the
+            message names row and column).
+        """
+        names = list(columns)
+        return cls._from_strings(
+            names,
+            [np.asarray([("" if x is None else str(x)) for x in columns[v]], dtype=object) for v in names],
+            states,
+            intervened,
+            row_label=lambda r: f"row {r + 1}",
+        )
+
+    @classmethod
+    def _from_strings(cls, names, cols, states, intervened, row_label) -> Table:
+        if states is not None:
+            expected = list(states)
+            for v in names:
+                if v not in states:
+                    raise DataError(f"unexpected column '{v}'; expected columns: {', '.join(expected)}")
+            for v in expected:
+                if v not in names:
+                    raise DataError(f"missing column '{v}'")
+            order = expected
+        else:
+            order = names
+        n = len(cols[0]) if cols else 0
+        for v, c in zip(names, cols):
+            if len(c) != n:
+                raise DataError(f"column '{v}' has {len(c)} values, expected {n}")
+        by_name = dict(zip(names, cols))
+        codes = np.empty((n, len(order)), dtype=np.int64)
+        final_states: dict[str, tuple[str, ...]] = {}
+        for j, v in enumerate(order):
+            col = by_name[v]
+            uniq, inverse = np.unique(col.astype(str), return_inverse=True) if n else (np.array([], str), np.array([], int))
+            if "" in uniq.tolist():
+                r = int(np.flatnonzero(col.astype(str) == "")[0])
+                raise DataError(f"{row_label(r)}, column '{v}': missing value")
+            if states is not None:
+                st = tuple(str(s) for s in states[v])
+            else:
+                st = tuple(uniq.tolist())
+            lookup = {s: i for i, s in enumerate(st)}
+            mapping = np.empty(len(uniq), dtype=np.int64)
+            for u_i, u in enumerate(uniq.tolist()):
+                if u not in lookup:
+                    r = int(np.flatnonzero(inverse == u_i)[0])
+                    listed = ", ".join(sorted(st))
+                    raise DataError(f"{row_label(r)}, column '{v}': unknown state '{u}'; states are: {listed}")
+                mapping[u_i] = lookup[u]
+            codes[:, j] = mapping[inverse.reshape(-1)] if n else mapping[:0]
+            final_states[v] = st
+        mask = None
+        if intervened is not None:
+            intervened = list(intervened)
+            if len(intervened) != n:
+                raise DataError(f"{len(intervened)} regimes given for {n} rows")
+            mask = np.zeros((n, len(order)), dtype=bool)
+            pos = {v: j for j, v in enumerate(order)}
+            for r, names_r in enumerate(intervened):
+                for name in names_r:
+                    if name not in pos:
+                        raise DataError(
+                            f"{row_label(r)}, regime: unknown variable '{name}'; variables are: {', '.join(sorted(order))}"
+                        )
+                    mask[r, pos[name]] = True
+        return cls(codes, order, final_states, mask)
+
+    # ------------------------------------------------------------------ CSV
+    @classmethod
+    def read_csv(
+        cls,
+        path: str | os.PathLike | io.TextIOBase,
+        states: Mapping[str, Sequence[str]] | None = None,
+        regime_column: str | None = REGIME_COLUMN,
+    ) -> Table:
+        """Read a CSV file with a header row of variable names.
+
+        Parameters
+        ----------
+        path : path or text file
+            The CSV file.
+        states : mapping, optional
+            Declared states per variable; the columns must be exactly these
+            variables (plus the regime column). Without it, every column is
+            a variable and its states are the distinct values, sorted.
+        regime_column : str or None, default ``"regime"``
+            A column (optional in the file) listing, per row, the variables
+            set by intervention, separated by ``;``. Empty means observational.
+
+        Raises
+        ------
+        DataError
+            Empty file, ragged line, missing or extra column, unknown state,
+            missing value: the message names the file, row and column.
+        """
+        source = str(path) if not isinstance(path, io.TextIOBase) else getattr(path, "name", "<stream>")
+        if isinstance(path, io.TextIOBase):
+            text_rows = list(csv.reader(path))
+        else:
+            try:
+                with open(path, newline="", encoding="utf-8") as fh:
+                    text_rows = list(csv.reader(fh))
+            except FileNotFoundError:
+                raise DataError(f"{source}: no such file") from None
+        if not text_rows:
+            raise DataError(f"{source}: the file is empty; expected a header row")
+        header = [h.strip() for h in text_rows[0]]
+        body = text_rows[1:]
+        for i, row in enumerate(body):
+            if len(row) != len(header):
+                raise DataError(f"{source}, line {i + 2}: expected {len(header)} fields, got {len(row)}")
+        seen = set()
+        for h in header:
+            if h in seen:
+                raise DataError(f"{source}: column '{h}' appears twice in the header")
+            seen.add(h)
+        matrix = np.array(body, dtype=object).reshape(len(body), len(header))
+        regimes = None
+        names = header
+        if regime_column is not None and regime_column in header:
+            j = header.index(regime_column)
+            regimes = [
+                [s.strip() for s in cell.split(REGIME_SEPARATOR) if s.strip()] for cell in matrix[:, j].tolist()
+            ]
+            names = [h for h in header if h != regime_column]
+            matrix = np.delete(matrix, j, axis=1)
+        cols = [np.array([c.strip() for c in matrix[:, j].tolist()], dtype=object) for j in range(len(names))]
+        try:
+            return cls._from_strings(names, cols, states, regimes, row_label=lambda r: f"row {r + 1} (line {r + 2})")
+        except DataError as exc:
+            raise DataError(f"{source}: {exc}") from None
+
+    def to_csv(self, path: str | os.PathLike | io.TextIOBase, regime_column: str | None = REGIME_COLUMN) -> None:
+        """Write the rows as CSV with a header row (and a regime column if any row has one).
+
+        The file is written to a temporary name and moved into place, so a
+        failure never leaves half a file behind.
+        """
+        write_regime = regime_column is not None and not self.is_observational
+        if write_regime and regime_column in self._variables:
+            raise DataError(f"regime column '{regime_column}' clashes with a variable of that name")
+
+        def emit(fh):
+            w = csv.writer(fh, lineterminator="\n")
+            w.writerow(list(self._variables) + ([regime_column] if write_regime else []))
+            labels = [np.asarray(self._states[v], dtype=object)[self._codes[:, j]] for j, v in enumerate(self._variables)]
+            if write_regime:
+                names = np.asarray(self._variables, dtype=object)
+                reg = [REGIME_SEPARATOR.join(names[m].tolist()) for m in self._intervened]
+                labels.append(np.asarray(reg, dtype=object))
+            w.writerows(zip(*[lab.tolist() for lab in labels]) if labels else [])
+
+        if isinstance(path, io.TextIOBase):
+            emit(path)
+            return
+        path = os.fspath(path)
+        tmp = f"{path}.tmp-{os.getpid()}"
+        try:
+            with open(tmp, "w", newline="", encoding="utf-8") as fh:
+                emit(fh)
+            os.replace(tmp, path)
+        finally:
+            if os.path.exists(tmp):
+                os.remove(tmp)
+
+    # --------------------------------------------------------------- pandas
+    def to_pandas(self, regime_column: str | None = None):
+        """A ``pandas.DataFrame`` of categorical columns (states in declared order).
+
+        With ``regime_column`` set, a column of ``;``-joined intervened
+        variables is added.
+        """
+        import pandas as pd
+
+        data = {
+            v: pd.Categorical.from_codes(self._codes[:, j], categories=list(self._states[v]))
+            for j, v in enumerate(self._variables)
+        }
+        df = pd.DataFrame(data)
+        if regime_column is not None:
+            names = np.asarray(self._variables, dtype=object)
+            df[regime_column] = [REGIME_SEPARATOR.join(names[m].tolist()) for m in self._intervened]
+        return df
+
+    @classmethod
+    def from_pandas(cls, df, states: Mapping[str, Sequence[str]] | None = None, regime_column: str | None = None) -> Table:
+        """Build from a ``pandas.DataFrame`` of state names (or categoricals).
+
+        Categorical columns keep their category order as states unless
+        ``states`` says otherwise.
+        """
+        import pandas as pd
+
+        names = [str(c) for c in df.columns if c != regime_column]
+        regimes = None
+        if regime_column is not None and regime_column in df.columns:
+            regimes = [
+                [s.strip() for s in str(cell).split(REGIME_SEPARATOR) if s.strip()] if isinstance(cell, str) else []
+                for cell in df[regime_column].tolist()
+            ]
+        if states is None:
+            declared = {}
+            for c in names:
+                if isinstance(df[c].dtype, pd.CategoricalDtype):
+                    declared[c] = [str(s) for s in df[c].cat.categories]
+            if declared and len(declared) == len(names):
+                states = declared
+        cols = []
+        for c in names:
+            values = df[c].tolist()
+            cols.append(np.asarray(["" if (x is None or (isinstance(x, float) and np.isnan(x))) else str(x) for x in values], dtype=object))
+        return cls._from_strings(names, cols, states, regimes, row_label=lambda r: f"row {r + 1}")
