@@ -25,6 +25,22 @@ REGIME_COLUMN = "regime"
 REGIME_SEPARATOR = ";"
 
 
+def _is_missing(x) -> bool:
+    """True for None, NaN and pandas' missing markers (NA, NaT)."""
+    if x is None:
+        return True
+    if isinstance(x, (float, np.floating)):
+        return bool(np.isnan(x))
+    if type(x).__module__.startswith("pandas") and type(x).__name__ in ("NAType", "NaTType"):
+        return True
+    return False
+
+
+def _as_labels(values) -> np.ndarray:
+    """Values as an object array of str, with missing values as ``""``."""
+    return np.asarray(["" if _is_missing(x) else str(x) for x in values], dtype=object)
+
+
 def _normalise_states(variables: Sequence[str], states) -> dict[str, tuple[str, ...]]:
     if isinstance(states, Mapping):
         missing = [v for v in variables if v not in states]
@@ -83,9 +99,12 @@ class Table:
             raise DataError(f"column '{dup}' appears twice")
         self._variables = variables
         self._states = _normalise_states(variables, states)
-        arr = np.asarray(codes)
-        if arr.size == 0:
-            arr = arr.reshape(-1, len(variables))
+        try:
+            arr = np.asarray(codes)
+        except (TypeError, ValueError):
+            raise DataError(f"codes must be a rectangular array of shape [rows, {len(variables)}]") from None
+        if arr.ndim == 1 and arr.size == 0:
+            arr = np.zeros((0, len(variables)), dtype=np.int64)  # no rows, e.g. []
         if arr.ndim != 2 or arr.shape[1] != len(variables):
             raise DataError(f"codes must have shape [rows, {len(variables)}], got {tuple(arr.shape)}")
         if not np.issubdtype(arr.dtype, np.integer):
@@ -103,7 +122,12 @@ class Table:
         if intervened is None:
             mask = np.zeros(arr.shape, dtype=bool)
         else:
-            mask = np.array(intervened, dtype=bool)
+            try:
+                mask = np.array(intervened, dtype=bool)
+            except (TypeError, ValueError):
+                raise DataError(f"intervened mask must be a rectangular array of shape {arr.shape}") from None
+            if mask.ndim == 1 and mask.size == 0:
+                mask = np.zeros(arr.shape, dtype=bool)
             if mask.shape != arr.shape:
                 raise DataError(f"intervened mask has shape {mask.shape}, expected {arr.shape}")
         arr.setflags(write=False)
@@ -200,8 +224,29 @@ class Table:
 
     # ----------------------------------------------------------- selection
     def take(self, rows) -> Table:
-        """A new table with the given rows (indices or boolean mask)."""
+        """A new table with the given rows (indices or boolean mask).
+
+        Raises
+        ------
+        DataError
+            An index out of range, a mask of the wrong length, or rows that
+            are neither integers nor booleans.
+        """
         rows = np.asarray(rows)
+        n = self.n_rows
+        if rows.ndim != 1:
+            raise DataError(f"rows must be a 1-d sequence of indices or a boolean mask, got shape {rows.shape}")
+        if rows.size == 0 and rows.dtype != bool:
+            rows = rows.astype(np.int64)  # [] arrives as float64
+        if rows.dtype == bool:
+            if rows.shape[0] != n:
+                raise DataError(f"boolean mask has {rows.shape[0]} entries for {n} rows")
+        elif np.issubdtype(rows.dtype, np.integer):
+            out = (rows < -n) | (rows >= n)
+            if out.any():
+                raise DataError(f"row index {int(rows[out][0])} is out of range for {n} rows")
+        else:
+            raise DataError(f"rows must be integer indices or a boolean mask, got dtype {rows.dtype}")
         return Table(self._codes[rows], self._variables, self._states, self._intervened[rows])
 
     def select(self, variables: Iterable[str]) -> Table:
@@ -216,7 +261,8 @@ class Table:
 
     def split(self, fraction: float, seed: int | None = None) -> tuple[Table, Table]:
         """Shuffle the rows with ``seed`` and split them ``fraction : 1 - fraction``."""
-        if not 0.0 < fraction < 1.0:
+        is_number = isinstance(fraction, (int, float, np.integer, np.floating)) and not isinstance(fraction, bool)
+        if not is_number or not 0.0 < fraction < 1.0:
             raise DataError(f"fraction must lie strictly between 0 and 1, got {fraction}")
         order = np.random.default_rng(seed).permutation(self.n_rows)
         cut = int(round(fraction * self.n_rows))
@@ -262,20 +308,20 @@ class Table:
         Raises
         ------
         DataError
-            Missing or extra column, unknown state or missing value (the
-            message names row and column).
+            Missing or extra column, unknown state or missing value (None,
+            NaN or ``""``; the message names row and column).
         """
         names = list(columns)
         return cls._from_strings(
             names,
-            [np.asarray([("" if x is None else str(x)) for x in columns[v]], dtype=object) for v in names],
+            [_as_labels(columns[v]) for v in names],
             states,
             intervened,
             row_label=lambda r: f"row {r + 1}",
         )
 
     @classmethod
-    def _from_strings(cls, names, cols, states, intervened, row_label) -> Table:
+    def _from_strings(cls, names, cols, states, intervened, row_label, n=None, regime_label="regime") -> Table:
         if states is not None:
             expected = list(states)
             for v in names:
@@ -287,7 +333,8 @@ class Table:
             order = expected
         else:
             order = names
-        n = len(cols[0]) if cols else 0
+        if n is None:
+            n = len(cols[0]) if cols else 0
         for v, c in zip(names, cols):
             if len(c) != n:
                 raise DataError(f"column '{v}' has {len(c)} values, expected {n}")
@@ -325,7 +372,8 @@ class Table:
                 for name in names_r:
                     if name not in pos:
                         raise DataError(
-                            f"{row_label(r)}, regime: unknown variable '{name}'; variables are: {', '.join(sorted(order))}"
+                            f"{row_label(r)}, {regime_label}: unknown variable '{name}'; "
+                            f"variables are: {', '.join(sorted(order))}"
                         )
                     mask[r, pos[name]] = True
         return cls(codes, order, final_states, mask)
@@ -359,23 +407,45 @@ class Table:
             missing value: the message names the file, row and column.
         """
         source = str(path) if not isinstance(path, io.TextIOBase) else getattr(path, "name", "<stream>")
-        if isinstance(path, io.TextIOBase):
-            text_rows = list(csv.reader(path))
-        else:
+
+        def records(fh):
+            # (first line, fields) per CSV record; a quoted field may span lines
+            reader = csv.reader(fh)
+            first = 1
             try:
-                with open(path, newline="", encoding="utf-8") as fh:
-                    text_rows = list(csv.reader(fh))
-            except FileNotFoundError:
-                raise DataError(f"{source}: no such file") from None
-        if not text_rows:
+                for fields in reader:
+                    yield first, fields
+                    first = reader.line_num + 1
+            except csv.Error as exc:
+                raise DataError(f"{source}, line {reader.line_num}: {exc}") from None
+
+        try:
+            if isinstance(path, io.TextIOBase):
+                text_rows = list(records(path))
+            else:
+                with open(path, newline="", encoding="utf-8-sig") as fh:
+                    text_rows = list(records(fh))
+        except FileNotFoundError:
+            raise DataError(f"{source}: no such file") from None
+        except UnicodeDecodeError as exc:
+            raise DataError(f"{source}: the file is not UTF-8 text ({exc.reason} at byte {exc.start})") from None
+        except OSError as exc:
+            why = f"{exc.__class__.__name__}: {exc.strerror or exc}"
+            raise DataError(f"{source}: cannot read the file ({why})") from None
+        if not text_rows or not any(h.strip() for h in text_rows[0][1]):
             raise DataError(f"{source}: the file is empty; expected a header row")
-        header = [h.strip() for h in text_rows[0]]
-        body = text_rows[1:]
-        for i, row in enumerate(body):
+        header = [h.strip() for h in text_rows[0][1]]
+        if header[0].startswith("\ufeff"):  # a stream opened without utf-8-sig
+            header[0] = header[0][1:].strip()
+        body = [fields for _, fields in text_rows[1:]]
+        lines = [first for first, _ in text_rows[1:]]
+        for line, row in zip(lines, body):
             if len(row) != len(header):
-                raise DataError(f"{source}, line {i + 2}: expected {len(header)} fields, got {len(row)}")
+                raise DataError(f"{source}, line {line}: expected {len(header)} fields, got {len(row)}")
         seen = set()
-        for h in header:
+        for j, h in enumerate(header):
+            if not h:
+                raise DataError(f"{source}: column {j + 1} of the header has no name")
             if h in seen:
                 raise DataError(f"{source}: column '{h}' appears twice in the header")
             seen.add(h)
@@ -391,7 +461,15 @@ class Table:
             matrix = np.delete(matrix, j, axis=1)
         cols = [np.array([c.strip() for c in matrix[:, j].tolist()], dtype=object) for j in range(len(names))]
         try:
-            return cls._from_strings(names, cols, states, regimes, row_label=lambda r: f"row {r + 1} (line {r + 2})")
+            return cls._from_strings(
+                names,
+                cols,
+                states,
+                regimes,
+                row_label=lambda r: f"row {r + 1} (line {lines[r]})",
+                n=len(body),
+                regime_label=f"column '{regime_column}'",
+            )
         except DataError as exc:
             raise DataError(f"{source}: {exc}") from None
 
@@ -400,10 +478,28 @@ class Table:
 
         The file is written to a temporary name and moved into place, so a
         failure never leaves half a file behind.
+
+        Raises
+        ------
+        DataError
+            A variable is named like ``regime_column`` (:meth:`read_csv`
+            would read that column as the regimes), or an intervened
+            variable's name contains ``;``.
         """
         write_regime = regime_column is not None and not self.is_observational
-        if write_regime and regime_column in self._variables:
-            raise DataError(f"regime column '{regime_column}' clashes with a variable of that name")
+        if regime_column is not None and regime_column in self._variables:
+            raise DataError(
+                f"regime column '{regime_column}' clashes with a variable of that name; "
+                "choose another regime_column (or None) and read the file back with the same"
+            )
+        if write_regime:
+            for j in np.flatnonzero(self._intervened.any(axis=0)):
+                v = self._variables[j]
+                if REGIME_SEPARATOR in v:
+                    raise DataError(
+                        f"variable '{v}' is intervened but its name contains '{REGIME_SEPARATOR}', "
+                        "which separates names in the regime column"
+                    )
 
         def emit(fh):
             w = csv.writer(fh, lineterminator="\n")
@@ -437,6 +533,8 @@ class Table:
         """
         import pandas as pd
 
+        if regime_column is not None and regime_column in self._variables:
+            raise DataError(f"regime column '{regime_column}' clashes with a variable of that name")
         data = {
             v: pd.Categorical.from_codes(self._codes[:, j], categories=list(self._states[v]))
             for j, v in enumerate(self._variables)
@@ -452,26 +550,56 @@ class Table:
         """Build from a ``pandas.DataFrame`` of state names (or categoricals).
 
         Categorical columns keep their category order as states unless
-        ``states`` says otherwise.
+        ``states`` says otherwise; the states of other columns are their
+        distinct values, sorted. Missing values (None, NaN, ``pd.NA``) are
+        errors. A regime cell is a ``;``-separated string or a list of
+        variable names; a missing or empty cell means observational.
+
+        Raises
+        ------
+        DataError
+            Duplicate column, missing value, unknown state, or a malformed
+            regime cell: the message names row and column.
         """
         import pandas as pd
 
-        names = [str(c) for c in df.columns if c != regime_column]
+        labels = [c for c in df.columns if c != regime_column]
+        names = [str(c) for c in labels]
+        seen: set[str] = set()
+        for v in names:
+            if v in seen:
+                raise DataError(f"column '{v}' appears twice")
+            seen.add(v)
+        n = len(df)
         regimes = None
         if regime_column is not None and regime_column in df.columns:
-            regimes = [
-                [s.strip() for s in str(cell).split(REGIME_SEPARATOR) if s.strip()] if isinstance(cell, str) else []
-                for cell in df[regime_column].tolist()
-            ]
-        if states is None:
-            declared = {}
-            for c in names:
+            regimes = []
+            for r, cell in enumerate(df[regime_column].tolist()):
+                if isinstance(cell, str):
+                    regimes.append([x.strip() for x in cell.split(REGIME_SEPARATOR) if x.strip()])
+                elif isinstance(cell, (list, tuple, set, frozenset)) and all(isinstance(x, str) for x in cell):
+                    regimes.append(list(cell))
+                elif _is_missing(cell):
+                    regimes.append([])
+                else:
+                    raise DataError(
+                        f"row {r + 1}, column '{regime_column}': expected variable names separated by "
+                        f"'{REGIME_SEPARATOR}', got {cell!r}"
+                    )
+        cols = [_as_labels(df.iloc[:, j].tolist()) for j, c in enumerate(df.columns) if c != regime_column]
+        if states is None and any(isinstance(df[c].dtype, pd.CategoricalDtype) for c in labels):
+            states = {}
+            for v, c, col in zip(names, labels, cols):
                 if isinstance(df[c].dtype, pd.CategoricalDtype):
-                    declared[c] = [str(s) for s in df[c].cat.categories]
-            if declared and len(declared) == len(names):
-                states = declared
-        cols = []
-        for c in names:
-            values = df[c].tolist()
-            cols.append(np.asarray(["" if (x is None or (isinstance(x, float) and np.isnan(x))) else str(x) for x in values], dtype=object))
-        return cls._from_strings(names, cols, states, regimes, row_label=lambda r: f"row {r + 1}")
+                    states[v] = [str(x) for x in df[c].cat.categories]
+                else:
+                    states[v] = sorted(set(col.tolist()) - {""})
+        return cls._from_strings(
+            names,
+            cols,
+            states,
+            regimes,
+            row_label=lambda r: f"row {r + 1}",
+            n=n,
+            regime_label=f"column '{regime_column}'",
+        )

@@ -12,9 +12,12 @@ repositories::
     }
 
 with ``//`` and ``/* */`` comments, quoted names, optional commas and any
-whitespace. In the ``table`` form of a variable with parents, values are
-read with the variable's own state varying slowest and the last parent
-fastest (the order pgmpy's reader uses). The writer emits the unambiguous
+whitespace (a leading byte-order mark is skipped). ``property`` lines of the
+network and variable blocks are kept in ``CausalNetwork.properties`` and
+``CausalNetwork.variable_properties``; those inside a probability block are
+accepted and dropped. In the ``table`` form of a variable with parents,
+values are read with the variable's own state varying slowest and the last
+parent fastest (the order pgmpy's reader uses). The writer emits the unambiguous
 per-row form for variables with parents and ``table`` for roots, with
 floats written by ``repr`` so that read -> write -> read gives the same
 numbers exactly.
@@ -29,12 +32,14 @@ import gzip
 import itertools
 import os
 import re
+import zlib
 
+import networkx as nx
 import numpy as np
 
 from ..errors import BIFParseError, GraphError, NetworkError
 from ..graph import CausalGraph
-from .network import CausalNetwork
+from .network import _ROW_TOL, CausalNetwork
 
 __all__ = ["read_bif", "parse_bif", "write_bif", "format_bif"]
 
@@ -78,7 +83,12 @@ class _Scanner:
                 return
 
     def peek(self) -> tuple[str, str] | None:
-        """Next token as (kind, text) without consuming it; None at end."""
+        """Next token as (kind, text) without consuming it; None at end.
+
+        Whitespace and comments before it are consumed, so that ``line`` is
+        the token's line afterwards.
+        """
+        self._skip()
         save = (self.pos, self.line)
         tok = self.next()
         self.pos, self.line = save
@@ -206,6 +216,8 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
         Any syntax error, unknown variable or state, wrong number of values,
         missing row, invalid CPT or cyclic graph, with file and line.
     """
+    if text.startswith("\ufeff"):
+        text = text[1:]  # byte-order mark left by some editors
     sc = _Scanner(text, source)
     name = "network"
     net_props: dict[str, str] = {}
@@ -240,6 +252,8 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                 net_props[k] = v
         elif word == "variable":
             vname = sc.word("a variable name")
+            if vname == "":
+                raise sc.error("a variable name is empty")
             if vname in states or vname in var_line:
                 raise sc.error(f"variable '{vname}' is declared twice")
             var_line[vname] = line
@@ -343,12 +357,21 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
     for v in var_order:
         if v not in blocks:
             raise BIFParseError(f"variable '{v}' has no probability block", source, var_line[v])
+    edges = [(p, c) for c in var_order for p in blocks[c][1]]
     try:
-        graph = CausalGraph([(p, c) for c in var_order for p in blocks[c][1]], nodes=var_order)
+        graph = CausalGraph(edges, nodes=var_order)
     except GraphError as exc:
-        raise BIFParseError(str(exc), source, None) from None
+        # names are non-empty, declared and not repeated, so this is a cycle:
+        # point at the probability block of a variable on it
+        try:
+            on_cycle = nx.find_cycle(nx.DiGraph(edges))[0][1]
+            line = blocks[on_cycle][0]
+        except nx.NetworkXNoCycle:
+            line = None
+        raise BIFParseError(str(exc), source, line) from None
 
     cpts = {}
+    row_lines: dict[str, np.ndarray] = {}
     for child in var_order:
         line, parents, entries = blocks[child]
         k = len(states[child])
@@ -358,7 +381,9 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             n_rows *= c
         if n_rows * k > 50_000_000:
             raise BIFParseError(f"the CPT of '{child}' would have {n_rows * k} entries; too large", source, line)
-        table = np.full((n_rows, k), np.nan)
+        table = np.zeros((n_rows, k))
+        filled = np.zeros(n_rows, dtype=bool)
+        row_line = np.full(n_rows, line)
         default = None
         lookups = [{s: i for i, s in enumerate(states[p])} for p in parents]
         strides = np.cumprod([1] + pcards[::-1])[:-1][::-1] if parents else []
@@ -369,10 +394,12 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                         f"table of '{child}' has {len(vals)} values, expected {n_rows * k}", source, eline
                     )
                 table[:] = np.array(vals).reshape(k, n_rows).T
+                filled[:] = True
+                row_line[:] = eline
             elif kind == "default":
                 if len(vals) != k:
                     raise BIFParseError(f"default row of '{child}' has {len(vals)} values, expected {k}", source, eline)
-                default = vals
+                default = (vals, eline)
             else:
                 if len(cfg) != len(parents):
                     raise BIFParseError(
@@ -391,20 +418,36 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                         )
                     r += look[s] * int(stv)
                 table[r] = vals
-        missing = np.flatnonzero(np.isnan(table).any(axis=1))
+                filled[r] = True
+                row_line[r] = eline
+        missing = np.flatnonzero(~filled)
         if missing.size:
             if default is not None:
-                table[missing] = default
+                table[missing] = default[0]
+                row_line[missing] = default[1]
             else:
                 codes = np.unravel_index(int(missing[0]), pcards) if parents else ()
                 cfg_txt = ", ".join(f"{p}={states[p][int(c)]}" for p, c in zip(parents, codes))
                 raise BIFParseError(f"'{child}' has no row for ({cfg_txt})", source, line)
         cpts[child] = table.reshape(pcards + [k])
+        row_lines[child] = row_line
     try:
         return CausalNetwork(graph, states, cpts, name=name, properties=net_props, variable_properties=var_props)
     except NetworkError as exc:
-        bad = next((v for v in var_order if f"'{v}'" in str(exc)), None)
-        raise BIFParseError(str(exc), source, blocks[bad][0] if bad else None) from None
+        # the message starts "CPT of '<variable>', row ..."; report the line
+        # that supplied the first row breaking the rules the network checks
+        bad = next((v for v in var_order if str(exc).startswith(f"CPT of '{v}'")), None)
+        line = None
+        if bad is not None:
+            rows = cpts[bad].reshape(-1, len(states[bad]))
+            wrong = (
+                ~np.isfinite(rows).all(axis=1)
+                | (rows < 0).any(axis=1)
+                | (np.abs(rows.sum(axis=1) - 1.0) > _ROW_TOL)
+            )
+            hits = np.flatnonzero(wrong)
+            line = int(row_lines[bad][hits[0]]) if hits.size else blocks[bad][0]
+        raise BIFParseError(str(exc), source, line) from None
 
 
 def read_bif(path: str | os.PathLike) -> CausalNetwork:
@@ -419,15 +462,22 @@ def read_bif(path: str | os.PathLike) -> CausalNetwork:
     path = os.fspath(path)
     try:
         if path.endswith(".gz"):
-            with gzip.open(path, "rt", encoding="utf-8") as fh:
-                text = fh.read()
+            with gzip.open(path, "rb") as fh:
+                data = fh.read()
         else:
-            with open(path, encoding="utf-8") as fh:
-                text = fh.read()
+            with open(path, "rb") as fh:
+                data = fh.read()
     except FileNotFoundError:
         raise BIFParseError("no such file", path, None) from None
-    except (UnicodeDecodeError, OSError, EOFError) as exc:
+    except (OSError, EOFError, zlib.error) as exc:
         raise BIFParseError(f"cannot read the file ({exc.__class__.__name__}: {exc})", path, None) from None
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        raise BIFParseError(f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x})", path, line) from None
+    # read as text files are: universal newlines
+    text = text.replace("\r\n", "\n").replace("\r", "\n")
     net = parse_bif(text, source=path)
     if net.name in ("network", "unknown"):
         base = os.path.basename(path)
@@ -474,13 +524,21 @@ def format_bif(net: CausalNetwork) -> str:
 
 
 def write_bif(net: CausalNetwork, path: str | os.PathLike) -> None:
-    """Write the network to ``path`` as BIF, atomically (temporary file, then rename)."""
+    """Write the network to ``path`` as BIF, atomically (temporary file, then rename).
+
+    A path ending in ``.gz`` is written gzip-compressed, as :func:`read_bif`
+    expects.
+    """
     path = os.fspath(path)
     text = format_bif(net)
     tmp = f"{path}.tmp-{os.getpid()}"
     try:
-        with open(tmp, "w", encoding="utf-8") as fh:
-            fh.write(text)
+        if path.endswith(".gz"):
+            with gzip.open(tmp, "wt", encoding="utf-8") as fh:
+                fh.write(text)
+        else:
+            with open(tmp, "w", encoding="utf-8") as fh:
+                fh.write(text)
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):

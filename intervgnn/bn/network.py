@@ -31,7 +31,9 @@ class CausalNetwork:
         State names of every variable (unique within a variable).
     cpts : mapping of str to array_like
         ``cpts[v]`` has axes ``(*graph.parents(v), v)``: the last axis is the
-        variable's own state, the others its parents in graph order.
+        variable's own state, the others its parents in graph order. Rows
+        that sum to one within 1e-6 but not within 1e-12 are rescaled to sum
+        to one.
     name : str, default ``"network"``
         A label (used in reports).
     properties : mapping, optional
@@ -115,12 +117,19 @@ class CausalNetwork:
                 if bad.any():
                     j = int(np.flatnonzero(bad)[0])
                     raise NetworkError(
-                        f"CPT of '{v}', row {label}: entry for state '{self._states[v][j]}' is {row[j]!r}; "
+                        f"CPT of '{v}', row {label}: entry for state '{self._states[v][j]}' is {float(row[j])!r}; "
                         "probabilities must be finite and non-negative"
                     )
                 raise NetworkError(
                     f"CPT of '{v}', row {label}: probabilities sum to {row.sum():.9g}, expected 1 (within {_ROW_TOL:g})"
                 )
+        # rows that sum to one only within the tolerance are rescaled, so that
+        # every route to an answer (elimination, adjustment, sampling) agrees
+        sums = rows.sum(axis=1)
+        off = np.abs(sums - 1.0) > 1e-12
+        if off.any():
+            rows[off] /= sums[off, None]
+        arr = rows.reshape(expected)
         arr.setflags(write=False)
         return arr
 

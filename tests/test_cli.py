@@ -1,0 +1,68 @@
+"""The intervgnn command on small networks."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from intervgnn.cli import CAUTION, main
+
+
+def run(capsys, *argv):
+    rc = main(list(argv))
+    out = capsys.readouterr()
+    return rc, out.out, out.err
+
+
+def test_networks_lists_catalog_with_citations(capsys):
+    rc, out, _ = run(capsys, "networks", "--cite")
+    assert rc == 0
+    for name in ["cancer", "earthquake", "survey", "sachs", "child", "insurance", "alarm"]:
+        assert name in out
+    assert "Beinlich" in out and "Sachs, K." in out
+
+
+def test_exact_prints_table_and_caution(capsys):
+    rc, out, _ = run(capsys, "exact", "--network", "cancer", "--target", "Dyspnoea", "--do", "Smoker=True")
+    assert rc == 0
+    assert "P(Dyspnoea | do(Smoker=True))" in out
+    assert CAUTION in out
+
+
+def test_exact_json_and_each(capsys):
+    rc, out, _ = run(capsys, "exact", "--network", "cancer", "--target", "Cancer", "--do", "Smoker=True", "--json")
+    data = json.loads(out)
+    assert data["variables"] == ["Cancer"] and abs(sum(data["probs"]) - 1) < 1e-12
+    assert data["caution"] == CAUTION
+    rc, out, _ = run(capsys, "exact", "--network", "cancer", "--target", "Cancer", "--each", "Smoker", "--json")
+    data = json.loads(out)
+    assert set(data["answers"]) == {"True", "False"}
+
+
+def test_sample_writes_csv(capsys, tmp_path):
+    path = tmp_path / "rows.csv"
+    rc, out, _ = run(capsys, "sample", "--network", "survey", "--rows", "50", "--out", str(path))
+    assert rc == 0 and "wrote 50 rows" in out
+    assert path.read_text().splitlines()[0] == "A,S,E,O,R,T"
+
+
+def test_demo_runs(capsys):
+    rc, out, _ = run(capsys, "demo")
+    assert rc == 0 and "P(Yield | do(Irrigation=high))" in out and CAUTION in out
+
+
+@pytest.mark.parametrize(
+    "argv, message",
+    [
+        (["exact", "--network", "nope", "--target", "A"], "unknown network 'nope'"),
+        (["exact", "--network", "cancer", "--target", "Cancer", "--do", "Smoker"], "--do expects VARIABLE=STATE, got 'Smoker'"),
+        (["exact", "--network", "cancer", "--target", "Cancer", "--do", "Smoker=maybe"], "unknown state 'maybe' for variable 'Smoker'; states are: False, True"),
+        (["exact", "--network", "cancer", "--target", "Q"], "unknown target variable 'Q'"),
+    ],
+)
+def test_errors_are_one_line(capsys, argv, message):
+    rc, out, err = run(capsys, *argv)
+    assert rc == 2
+    assert err.startswith("intervgnn: error: ") and message in err
+    assert "Traceback" not in err
