@@ -15,6 +15,7 @@ from collections.abc import Iterable, Mapping, Sequence
 
 import numpy as np
 
+from ._io import atomic_open
 from .errors import DataError
 
 __all__ = ["Table", "REGIME_COLUMN", "REGIME_SEPARATOR"]
@@ -514,15 +515,8 @@ class Table:
         if isinstance(path, io.TextIOBase):
             emit(path)
             return
-        path = os.fspath(path)
-        tmp = f"{path}.tmp-{os.getpid()}"
-        try:
-            with open(tmp, "w", newline="", encoding="utf-8") as fh:
-                emit(fh)
-            os.replace(tmp, path)
-        finally:
-            if os.path.exists(tmp):
-                os.remove(tmp)
+        with atomic_open(path, "w", newline="") as fh:
+            emit(fh)
 
     # --------------------------------------------------------------- pandas
     def to_pandas(self, regime_column: str | None = None):

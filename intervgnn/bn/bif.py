@@ -37,6 +37,7 @@ import zlib
 import networkx as nx
 import numpy as np
 
+from .._io import atomic_open
 from ..errors import BIFParseError, GraphError, NetworkError
 from ..graph import CausalGraph
 from .network import _ROW_TOL, CausalNetwork
@@ -531,15 +532,5 @@ def write_bif(net: CausalNetwork, path: str | os.PathLike) -> None:
     """
     path = os.fspath(path)
     text = format_bif(net)
-    tmp = f"{path}.tmp-{os.getpid()}"
-    try:
-        if path.endswith(".gz"):
-            with gzip.open(tmp, "wt", encoding="utf-8") as fh:
-                fh.write(text)
-        else:
-            with open(tmp, "w", encoding="utf-8") as fh:
-                fh.write(text)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+    with atomic_open(path, "w", compress=path.endswith(".gz")) as fh:
+        fh.write(text)
