@@ -18,6 +18,7 @@ from .errors import (
     DataError,
     GraphError,
     IntervgnnError,
+    LayerInputError,
     NetworkError,
     QueryError,
     UnknownNetworkError,
@@ -51,4 +52,5 @@ __all__ = [
     "DataError",
     "QueryError",
     "ZeroEvidenceError",
+    "LayerInputError",
 ]

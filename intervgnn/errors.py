@@ -17,6 +17,7 @@ __all__ = [
     "DataError",
     "QueryError",
     "ZeroEvidenceError",
+    "LayerInputError",
 ]
 
 
@@ -71,3 +72,7 @@ class QueryError(IntervgnnError, ValueError):
 
 class ZeroEvidenceError(QueryError):
     """The evidence of a conditional query has probability zero."""
+
+
+class LayerInputError(IntervgnnError, ValueError):
+    """A message-passing layer got inputs of the wrong shape, dtype or kind."""

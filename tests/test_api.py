@@ -6,7 +6,7 @@ import importlib
 
 import pytest
 
-PACKAGES = ["intervgnn", "intervgnn.bn"]
+PACKAGES = ["intervgnn", "intervgnn.bn", "intervgnn.nn"]
 
 
 @pytest.mark.parametrize("mod", PACKAGES)
