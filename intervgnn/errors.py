@@ -18,6 +18,11 @@ __all__ = [
     "QueryError",
     "ZeroEvidenceError",
     "LayerInputError",
+    "UnsupportedQuery",
+    "NotFittedError",
+    "CheckpointError",
+    "ConfigError",
+    "NotIdentified",
 ]
 
 
@@ -76,3 +81,31 @@ class ZeroEvidenceError(QueryError):
 
 class LayerInputError(IntervgnnError, ValueError):
     """A message-passing layer got inputs of the wrong shape, dtype or kind."""
+
+
+class UnsupportedQuery(IntervgnnError):
+    """An estimator cannot answer this kind of query (the harness records it as such)."""
+
+
+class NotIdentified(UnsupportedQuery):
+    """The query is not identifiable on the diagram.
+
+    ``identification`` holds the verdict (an
+    :class:`~intervgnn.identify.Identification`, with the hedge).
+    """
+
+    def __init__(self, identification):
+        self.identification = identification
+        super().__init__(identification.describe())
+
+
+class NotFittedError(IntervgnnError, RuntimeError):
+    """An estimator was queried before ``fit``."""
+
+
+class CheckpointError(IntervgnnError, ValueError):
+    """A saved model is missing, tampered with, or does not match the data or graph."""
+
+
+class ConfigError(IntervgnnError, ValueError):
+    """An experiment config is invalid; the message names the key."""

@@ -39,6 +39,9 @@ class CausalGraph:
         rows of :attr:`edge_index`). Variables that only appear in ``edges``
         are appended in order of first appearance. When ``nodes`` is given,
         every edge must name listed variables.
+    bidirected : iterable of (str, str), optional
+        Pairs ``A <-> B`` that share a hidden common cause (a semi-Markovian
+        diagram). Their variables must be among the nodes.
 
     Raises
     ------
@@ -55,7 +58,12 @@ class CausalGraph:
     ()
     """
 
-    def __init__(self, edges: Iterable[Sequence[str]] = (), nodes: Sequence[str] | None = None):
+    def __init__(
+        self,
+        edges: Iterable[Sequence[str]] = (),
+        nodes: Sequence[str] | None = None,
+        bidirected: Iterable[Sequence[str]] = (),
+    ):
         order: list[str] = []
         index: dict[str, int] = {}
         if nodes is not None:
@@ -103,6 +111,28 @@ class CausalGraph:
         }
         self._generations = self._compute_generations()
         self._edge_index = None
+        pairs: list[tuple[str, str]] = []
+        seen_pairs: set[frozenset] = set()
+        for pair in bidirected:
+            try:
+                a, b = pair
+            except (TypeError, ValueError):
+                raise GraphError(f"a confounded pair must be (A, B), got {pair!r}") from None
+            for w in (a, b):
+                if w not in index:
+                    raise GraphError(f"confounded pair '{a}' <-> '{b}' names '{w}', which is not in the graph")
+            if a == b:
+                raise GraphError(f"confounded pair '{a}' <-> '{b}' joins a variable to itself")
+            key = frozenset((a, b))
+            if key in seen_pairs:
+                raise GraphError(f"duplicate confounded pair '{a}' <-> '{b}'")
+            seen_pairs.add(key)
+            pairs.append(tuple(sorted((a, b), key=index.__getitem__)))
+        self._bidirected: tuple[tuple[str, str], ...] = tuple(sorted(pairs, key=lambda e: (index[e[0]], index[e[1]])))
+        self._spouses: dict[str, tuple[str, ...]] = {v: () for v in order}
+        for a, b in self._bidirected:
+            self._spouses[a] += (b,)
+            self._spouses[b] += (a,)
 
     # ------------------------------------------------------------------ build
     def _compute_generations(self) -> tuple[tuple[str, ...], ...]:
@@ -161,13 +191,136 @@ class CausalGraph:
     def __eq__(self, other: object) -> bool:
         if not isinstance(other, CausalGraph):
             return NotImplemented
-        return self._nodes == other._nodes and self._parents == other._parents
+        return self._nodes == other._nodes and self._parents == other._parents and self._bidirected == other._bidirected
 
     def __hash__(self) -> int:
-        return hash((self._nodes, tuple(self._parents[v] for v in self._nodes)))
+        return hash((self._nodes, tuple(self._parents[v] for v in self._nodes), self._bidirected))
 
     def __repr__(self) -> str:
-        return f"CausalGraph(num_nodes={self.num_nodes}, num_edges={self.num_edges})"
+        extra = f", num_bidirected={len(self._bidirected)}" if self._bidirected else ""
+        return f"CausalGraph(num_nodes={self.num_nodes}, num_edges={self.num_edges}{extra})"
+
+    # ------------------------------------------------- hidden common causes
+    @property
+    def bidirected(self) -> tuple[tuple[str, str], ...]:
+        """Confounded pairs ``(A, B)`` (A before B in node order)."""
+        return self._bidirected
+
+    @property
+    def has_hidden_confounding(self) -> bool:
+        return bool(self._bidirected)
+
+    def spouses(self, name: str) -> tuple[str, ...]:
+        """Variables joined to ``name`` by a bidirected edge."""
+        self.check(name)
+        return self._spouses[name]
+
+    def c_components(self, names: Iterable[str] | None = None) -> tuple[tuple[str, ...], ...]:
+        """Confounded components: the connected parts of the bidirected edges.
+
+        Parameters
+        ----------
+        names : iterable of str, optional
+            Restrict to the subgraph induced on these variables.
+
+        Returns
+        -------
+        tuple of tuples of str
+            Each component in node order; components ordered by their first node.
+        """
+        keep = set(self._nodes if names is None else self.check(list(names)))
+        seen: set[str] = set()
+        comps = []
+        for v in self._nodes:
+            if v not in keep or v in seen:
+                continue
+            comp, stack = {v}, [v]
+            while stack:
+                u = stack.pop()
+                for w in self._spouses[u]:
+                    if w in keep and w not in comp:
+                        comp.add(w)
+                        stack.append(w)
+            seen |= comp
+            comps.append(tuple(u for u in self._nodes if u in comp))
+        return tuple(comps)
+
+    def project_out(self, hidden: Iterable[str]) -> CausalGraph:
+        """The latent projection of this graph onto the variables that are not ``hidden``.
+
+        Following Verma & Pearl (1990) and Tian & Pearl (2002): for observed
+        A, B there is an edge ``A -> B`` when a directed path from A to B has
+        only hidden variables inside it, and a bidirected edge ``A <-> B``
+        when some hidden variable H reaches both A and B along directed paths
+        with only hidden variables inside them (or when A and B already share
+        a confounded pair, possibly through hidden variables). The result
+        keeps every causal and every independence statement among the
+        observed variables that the identification algorithm relies on.
+
+        Raises
+        ------
+        UnknownVariableError
+            A hidden name that is not a variable.
+        """
+        hidden_set = set(self.check(list(hidden), "hidden variable"))
+        observed = [v for v in self._nodes if v not in hidden_set]
+        # explicit latent node per existing bidirected edge, then project the DAG
+        latent_parents: dict[str, list[str]] = {v: list(self._parents[v]) for v in self._nodes}
+        latents = []
+        for i, (a, b) in enumerate(self._bidirected):
+            u = f"\0latent{i}"
+            latents.append(u)
+            latent_parents[u] = []
+            latent_parents[a].append(u)
+            latent_parents[b].append(u)
+        hid = hidden_set | set(latents)
+
+        def hidden_sources(v: str) -> set[str]:
+            """Hidden variables with a directed path to v through hidden variables only."""
+            out: set[str] = set()
+            stack = [p for p in latent_parents[v] if p in hid]
+            while stack:
+                h = stack.pop()
+                if h in out:
+                    continue
+                out.add(h)
+                stack.extend(p for p in latent_parents[h] if p in hid)
+            return out
+
+        def observed_parents(v: str) -> list[str]:
+            """Observed variables with a directed path to v through hidden variables only."""
+            out: list[str] = []
+            seen: set[str] = set()
+            stack = list(latent_parents[v])
+            while stack:
+                p = stack.pop()
+                if p in seen:
+                    continue
+                seen.add(p)
+                if p in hid:
+                    stack.extend(latent_parents[p])
+                elif p not in out:
+                    out.append(p)
+            return out
+
+        order = {v: i for i, v in enumerate(self._nodes)}
+        edges = []
+        for v in observed:
+            direct = [p for p in self._parents[v] if p not in hidden_set]
+            extra = sorted((p for p in observed_parents(v) if p not in direct), key=order.__getitem__)
+            edges.extend((p, v) for p in direct + extra)
+        sources = {v: hidden_sources(v) for v in observed}
+        pairs = [
+            (a, b)
+            for i, a in enumerate(observed)
+            for b in observed[i + 1 :]
+            if sources[a] & sources[b]
+        ]
+        return CausalGraph(edges, nodes=observed, bidirected=pairs)
+
+    def without_bidirected(self) -> CausalGraph:
+        """The same directed graph with the confounded pairs dropped."""
+        return CausalGraph(self.edges, nodes=self._nodes)
 
     def check(self, names: Names, what: str = "variable") -> list[str]:
         """Return ``names`` as a list, raising if any is not in the graph.
@@ -243,10 +396,17 @@ class CausalGraph:
         """The graph induced on ``names`` (kept in this graph's node order)."""
         keep = set(self.check(names))
         nodes = [v for v in self._nodes if v in keep]
-        return CausalGraph([(p, v) for v in nodes for p in self._parents[v] if p in keep], nodes=nodes)
+        return CausalGraph(
+            [(p, v) for v in nodes for p in self._parents[v] if p in keep],
+            nodes=nodes,
+            bidirected=[(a, b) for a, b in self._bidirected if a in keep and b in keep],
+        )
 
     def mutilate(self, do: Names | Mapping[str, object]) -> CausalGraph:
         """Return a new graph with every edge into the intervened variables removed.
+
+        Bidirected edges touching an intervened variable are removed too: an
+        intervention also cuts the variable off from its hidden causes.
 
         Parameters
         ----------
@@ -261,7 +421,9 @@ class CausalGraph:
         """
         targets = set(self.check(list(do.keys()) if isinstance(do, Mapping) else do, "intervened variable"))
         return CausalGraph(
-            [(p, v) for v in self._nodes if v not in targets for p in self._parents[v]], nodes=self._nodes
+            [(p, v) for v in self._nodes if v not in targets for p in self._parents[v]],
+            nodes=self._nodes,
+            bidirected=[(a, b) for a, b in self._bidirected if a not in targets and b not in targets],
         )
 
     # ------------------------------------------------------------- exports
@@ -279,11 +441,21 @@ class CausalGraph:
             self._edge_index = torch.tensor([src, dst], dtype=torch.long).reshape(2, -1)
         return self._edge_index.clone()
 
-    def to_networkx(self) -> nx.DiGraph:
-        """A ``networkx.DiGraph`` with the same nodes (in order) and edges."""
+    def to_networkx(self, latent_prefix: str | None = None) -> nx.DiGraph:
+        """A ``networkx.DiGraph`` with the same nodes (in order) and edges.
+
+        With ``latent_prefix``, each bidirected edge ``A <-> B`` becomes an
+        explicit hidden node ``f"{latent_prefix}{A}_{B}"`` with edges to A
+        and B (so that d-separation can be asked of the result).
+        """
         g = nx.DiGraph()
         g.add_nodes_from(self._nodes)
         g.add_edges_from(self.edges)
+        if latent_prefix is not None:
+            for a, b in self._bidirected:
+                u = f"{latent_prefix}{a}_{b}"
+                g.add_edge(u, a)
+                g.add_edge(u, b)
         return g
 
     @classmethod
