@@ -24,9 +24,15 @@ from .errors import (
     UnknownNetworkError,
     UnknownVariableError,
     ZeroEvidenceError,
+    UnsupportedQuery,
+    NotFittedError,
+    CheckpointError,
+    ConfigError,
+    NotIdentified,
 )
 from .graph import CausalGraph
 from .table import Table
+from .userdata import GraphSpec, load_graph, read_csv
 
 __version__ = "0.1.0"
 
@@ -36,6 +42,11 @@ __all__ = [
     "CausalNetwork",
     "Distribution",
     "Table",
+    "GraphSpec",
+    "load_graph",
+    "read_csv",
+    "PluginEstimator",
+    "NeuralEstimator",
     "load_network",
     "list_networks",
     "network_info",
@@ -53,4 +64,26 @@ __all__ = [
     "QueryError",
     "ZeroEvidenceError",
     "LayerInputError",
+    "UnsupportedQuery",
+    "NotFittedError",
+    "CheckpointError",
+    "ConfigError",
+    "NotIdentified",
+    "identify",
 ]
+
+# The estimators pull in torch and PyG; load them on first use so that the
+# exact engine and the command line start quickly.
+_LAZY = {
+    "PluginEstimator": "intervgnn.estimators",
+    "NeuralEstimator": "intervgnn.estimators",
+    "identify": "intervgnn.identify",
+}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        return getattr(importlib.import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'intervgnn' has no attribute '{name}'")

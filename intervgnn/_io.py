@@ -28,6 +28,9 @@ def atomic_open(path: str | os.PathLike, mode: str = "w", newline: str | None = 
             fh = open(tmp, mode, newline=newline, encoding="utf-8")
         with fh:
             yield fh
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual permissions
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):

@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import sys
 from collections.abc import Sequence
 
 from .bn import list_networks, load_network, network_info
-from .errors import IntervgnnError
+from .errors import ConfigError, IntervgnnError
 
 __all__ = ["main", "CAUTION"]
 
@@ -84,6 +85,154 @@ def cmd_sample(args) -> int:
     return 0
 
 
+def _rows_and_graph(args):
+    """Rows and diagram from --network (sampled) or --data/--graph."""
+    from .userdata import load_graph, read_csv
+
+    if args.network:
+        net = load_network(args.network)
+        return net.sample(args.rows, seed=args.seed), net.graph, net
+    if not (args.data and args.graph):
+        raise IntervgnnError("give --network NAME, or both --data F.csv and --graph G.yaml")
+    spec = load_graph(args.graph)
+    return read_csv(args.data, spec), spec.graph, None
+
+
+def _neural_settings(args) -> dict:
+    out = {"seed": args.seed, "progress": not getattr(args, "quiet", False)}
+    if getattr(args, "epochs", None) is not None:
+        out["epochs"] = args.epochs
+    return out
+
+
+def cmd_fit(args) -> int:
+    from .estimators import NeuralEstimator
+
+    table, graph, _ = _rows_and_graph(args)
+    est = NeuralEstimator(**_neural_settings(args)).fit(table, graph)
+    est.save(args.out)
+    r = est.train_result_
+    print(
+        f"trained on {table.n_rows} rows ({int(table.intervened.any(axis=1).sum())} experimental) in {r.seconds:.1f} s; "
+        f"best validation ELBO {r.best_val_elbo:.4f} at epoch {r.best_epoch}; answers in {est.answer_mode_} mode"
+    )
+    print(f"saved to {args.out}")
+    return 0
+
+
+def cmd_estimate(args) -> int:
+    from .estimators import NeuralEstimator, PluginEstimator
+    from .userdata import load_graph, read_csv
+
+    do = _assignments(args.do, "--do")
+    given = _assignments(args.given, "--given")
+    truth = None
+    if args.model:
+        graph = load_graph(args.graph).graph if args.graph else None
+        table = read_csv(args.data, args.graph) if (args.data and args.graph) else None
+        est = NeuralEstimator.load(args.model, graph=graph, table=table)
+        label = f"neural model {args.model}"
+    else:
+        table, graph, net = _rows_and_graph(args)
+        if args.estimator == "plugin":
+            est = PluginEstimator().fit(table, graph)
+        elif args.estimator == "estimand":
+            from .estimators.estimand import EstimandEstimator
+
+            est = EstimandEstimator().fit(table, graph)
+        else:
+            est = NeuralEstimator(**_neural_settings(args)).fit(table, graph)
+        label = f"{args.estimator} estimator fitted on {table.n_rows} rows"
+        if net is not None:
+            truth = net.query(args.target, do=do, given=given)
+    from .errors import NotIdentified
+
+    try:
+        dist = est.query(args.target, do=do, given=given)
+    except NotIdentified as exc:
+        if not args.allow_unidentified or not hasattr(est, "unidentified"):
+            print(exc.identification.describe())
+            print()
+            print("No estimate is given for a query that is not identifiable. Pass --allow-unidentified to see the")
+            print("neural model's number anyway; it will be marked NOT IDENTIFIED.")
+            print()
+            print(CAUTION)
+            return 3
+        est.unidentified = "answer"
+        dist = est.query(args.target, do=do, given=given)
+        print(exc.identification.describe())
+        print()
+    if args.json:
+        payload = {"estimate": dist.to_dict(), "estimator": label, "caution": CAUTION}
+        if truth is not None:
+            payload["exact"] = truth.to_dict()
+        print(json.dumps(payload, indent=2))
+        return 0
+    print(f"Estimate from the {label}:")
+    print(dist)
+    if truth is not None:
+        print()
+        print(f"Exact answer from the network '{args.network}' (known here because the rows were sampled from it):")
+        print(truth)
+    print()
+    print(CAUTION)
+    return 0
+
+
+def cmd_run(args) -> int:
+    from .harness import load_config, run_experiment
+    from .harness.summary import markdown_tables, summarise
+
+    cfg = load_config(args.config)
+    if args.output:
+        cfg = dataclasses.replace(cfg, output=args.output)
+    if args.rows:
+        extra = [r for r in args.rows if r not in cfg.rows]
+        if extra:
+            raise ConfigError(
+                f"--rows {extra[0]} is not a row count of this config; its row counts are: "
+                + ", ".join(str(r) for r in cfg.rows)
+            )
+        cfg = dataclasses.replace(cfg, rows=tuple(r for r in cfg.rows if r in args.rows))
+    paths = run_experiment(
+        cfg, workers=args.workers, executor=args.executor, address=args.address, resume=args.resume,
+        progress=not args.quiet, log=print,
+    )
+    from .harness.executors import load_records
+    from .harness.runs import plan_runs
+
+    _, summary = summarise(cfg, load_records(cfg, plan_runs(cfg)))
+    metric = "tv" if "tv" in cfg.metrics else cfg.metrics[0]
+    print()
+    print(markdown_tables(cfg, summary, metric))
+    for label, path in paths.items():
+        print(f"{label:<12} {path}")
+    print()
+    print(CAUTION)
+    return 0
+
+
+def cmd_identify(args) -> int:
+    from .identify import identify
+    from .userdata import load_graph
+
+    graph = load_graph(args.graph).graph
+    result = identify(graph, args.target, args.do, args.given or [])
+    if args.json:
+        print(json.dumps({
+            "query": result.query_text(),
+            "identifiable": result.identifiable,
+            "method": result.method,
+            "formula": None if result.formula is None else str(result.formula),
+            "estimand": None if result.estimand is None else str(result.estimand),
+            "adjustment": None if result.adjustment is None else list(result.adjustment),
+            "hedge": None if result.hedge is None else {"F": list(result.hedge[0]), "F_prime": list(result.hedge[1])},
+        }, indent=2))
+    else:
+        print(result.describe())
+    return 0
+
+
 def cmd_demo(args) -> int:
     """Exact demo: how far the naive reading of data is from the interventional answer."""
     net = load_network("greenhouse")
@@ -130,6 +279,62 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--seed", type=int, default=0)
     s.add_argument("--out", required=True)
     s.set_defaults(func=cmd_sample)
+
+    s = sub.add_parser("fit", help="train the neural estimator on rows and save it")
+    src = s.add_argument_group("rows (one of)")
+    src.add_argument("--network", help="sample the rows from this network (name or BIF path)")
+    src.add_argument("--rows", type=int, default=10_000, help="rows to sample with --network (default 10000)")
+    src.add_argument("--data", help="CSV file of rows")
+    src.add_argument("--graph", help="graph file (YAML) for --data")
+    s.add_argument("--seed", type=int, default=0)
+    s.add_argument("--epochs", type=int, help="most training epochs")
+    s.add_argument("--quiet", action="store_true", help="no progress bar")
+    s.add_argument("--out", required=True, help="folder to save the model in")
+    s.set_defaults(func=cmd_fit)
+
+    s = sub.add_parser("estimate", help="estimate P(target | do(...), given) from a model or from rows")
+    src = s.add_argument_group("source (one of)")
+    src.add_argument("--model", help="a folder saved by 'intervgnn fit'")
+    src.add_argument("--network", help="sample rows from this network and fit an estimator")
+    src.add_argument("--rows", type=int, default=10_000, help="rows to sample with --network (default 10000)")
+    src.add_argument("--data", help="CSV file of rows (with --graph)")
+    src.add_argument("--graph", help="graph file (YAML)")
+    s.add_argument(
+        "--estimator", choices=["plugin", "neural", "estimand"], default="neural",
+        help="estimator to fit (default neural; estimand: the identification formula on the rows)",
+    )
+    s.add_argument("--allow-unidentified", action="store_true", help="answer a non-identifiable query from the neural model, marked as such")
+    s.add_argument("--target", required=True, nargs="+")
+    s.add_argument("--do", action="append", metavar="X=STATE")
+    s.add_argument("--given", action="append", metavar="Z=STATE")
+    s.add_argument("--seed", type=int, default=0)
+    s.add_argument("--epochs", type=int)
+    s.add_argument("--quiet", action="store_true")
+    s.add_argument("--json", action="store_true")
+    s.set_defaults(func=cmd_estimate)
+
+    s = sub.add_parser("run", help="run an evaluation sweep from a YAML config and write tables, plots and a report")
+    s.add_argument("config", help="experiment config (YAML)")
+    s.add_argument("--workers", type=int, help="parallel runs (default: the config's 'workers')")
+    s.add_argument("--executor", choices=["local", "ray"], help="local process pool or Ray (default: the config's)")
+    s.add_argument("--address", help="address of an existing Ray cluster (with --executor ray)")
+    s.add_argument("--resume", action="store_true", help="keep finished runs and do only the rest")
+    s.add_argument("--output", help="output folder (default: the config's 'output')")
+    s.add_argument(
+        "--rows", type=int, nargs="+", metavar="N",
+        help="run and summarise only these of the config's row counts (the run files are the same as a full "
+        "sweep's, so a later --resume of the whole config keeps them)",
+    )
+    s.add_argument("--quiet", action="store_true", help="no progress bar")
+    s.set_defaults(func=cmd_run)
+
+    s = sub.add_parser("identify", help="is P(target | do(...), given) identifiable on a diagram? print the estimand or the hedge")
+    s.add_argument("--graph", required=True, help="graph file (YAML); 'confounded' pairs mark hidden common causes")
+    s.add_argument("--target", required=True, nargs="+")
+    s.add_argument("--do", required=True, nargs="+", metavar="X", help="intervened variable(s)")
+    s.add_argument("--given", nargs="+", metavar="Z", help="observed variable(s)")
+    s.add_argument("--json", action="store_true")
+    s.set_defaults(func=cmd_identify)
 
     s = sub.add_parser("demo", help="a short demonstration on the invented greenhouse network")
     s.set_defaults(func=cmd_demo)

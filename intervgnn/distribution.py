@@ -33,6 +33,9 @@ class Distribution:
     description : str, optional
         What the distribution answers, e.g. ``"P(Y | do(X=a))"``; used when
         printing.
+    identified : bool or None, optional
+        False marks an answer to a query that is not identifiable from the
+        data on the diagram: it rests on the model's assumptions alone.
 
     Examples
     --------
@@ -52,7 +55,9 @@ class Distribution:
         states: Sequence[Sequence[str]],
         probs,
         description: str | None = None,
+        identified: bool | None = None,
     ):
+        self.identified = identified
         self.variables: tuple[str, ...] = tuple(variables)
         self.states: tuple[tuple[str, ...], ...] = tuple(tuple(s) for s in states)
         arr = np.array(probs, dtype=np.float64)
@@ -122,6 +127,7 @@ class Distribution:
         """A JSON-ready dict: variables, states, probabilities as nested lists."""
         return {
             "description": self.description,
+            "identified": self.identified,
             "variables": list(self.variables),
             "states": [list(s) for s in self.states],
             "probs": self.probs.tolist(),
@@ -135,6 +141,8 @@ class Distribution:
         lines = []
         if self.description:
             lines.append(self.description)
+        if self.identified is False:
+            lines.append("NOT IDENTIFIED: no amount of observational data pins this number down; it rests on the model.")
         lines.append("  ".join(h.ljust(w) for h, w in zip(header, widths)).rstrip())
         lines.append("  ".join("-" * w for w in widths))
         for r in rows:

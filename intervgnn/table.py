@@ -256,6 +256,38 @@ class Table:
         names = [self._variables[j] for j in cols]
         return Table(self._codes[:, cols], names, {v: self._states[v] for v in names}, self._intervened[:, cols])
 
+    def with_states(self, states: Mapping[str, Sequence[str]]) -> Table:
+        """The same rows re-coded against declared state lists (variables not listed keep theirs).
+
+        Raises
+        ------
+        DataError
+            A value that is not among the declared states (names row and
+            column).
+        """
+        codes = self._codes.copy()
+        new_states = dict(self._states)
+        for v, declared in states.items():
+            j = self._check_column(v)
+            declared = tuple(str(s) for s in declared)
+            lookup = {s: i for i, s in enumerate(declared)}
+            mapping = np.empty(len(self._states[v]), dtype=np.int64)
+            for old, name in enumerate(self._states[v]):
+                if name not in lookup:
+                    used = np.flatnonzero(self._codes[:, j] == old)
+                    if used.size == 0:
+                        mapping[old] = 0
+                        continue
+                    r = int(used[0])
+                    raise DataError(
+                        f"row {r + 1}, column '{v}': unknown state '{name}'; "
+                        f"states are: {', '.join(sorted(declared))}"
+                    )
+                mapping[old] = lookup[name]
+            codes[:, j] = mapping[self._codes[:, j]]
+            new_states[v] = declared
+        return Table(codes, self._variables, new_states, self._intervened)
+
     def observational_rows(self) -> Table:
         """The rows with no intervened variable."""
         return self.take(~self._intervened.any(axis=1))

@@ -6,7 +6,7 @@ import importlib
 
 import pytest
 
-PACKAGES = ["intervgnn", "intervgnn.bn", "intervgnn.nn"]
+PACKAGES = ["intervgnn", "intervgnn.bn", "intervgnn.nn", "intervgnn.models", "intervgnn.estimators", "intervgnn.eval"]
 
 
 @pytest.mark.parametrize("mod", PACKAGES)

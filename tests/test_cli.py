@@ -66,3 +66,43 @@ def test_errors_are_one_line(capsys, argv, message):
     assert rc == 2
     assert err.startswith("intervgnn: error: ") and message in err
     assert "Traceback" not in err
+
+
+def test_fit_then_estimate_from_the_saved_model(capsys, tmp_path):
+    out = tmp_path / "model"
+    rc, text, _ = run(capsys, "fit", "--network", "cancer", "--rows", "3000", "--epochs", "5", "--quiet", "--out", str(out))
+    assert rc == 0 and "saved to" in text and (out / "weights.pt").exists() and (out / "model.json").exists()
+    rc, text, _ = run(capsys, "estimate", "--model", str(out), "--target", "Xray", "--do", "Smoker=True")
+    assert rc == 0 and "P(Xray | do(Smoker=True))" in text and CAUTION in text
+    rc, text, _ = run(capsys, "estimate", "--model", str(out), "--target", "Xray", "--do", "Smoker=True", "--json")
+    data = json.loads(text)
+    assert data["caution"] == CAUTION and abs(sum(data["estimate"]["probs"]) - 1) < 1e-9
+
+
+def test_estimate_with_plugin_on_sampled_rows_prints_the_truth_too(capsys):
+    rc, text, _ = run(capsys, "estimate", "--network", "greenhouse", "--estimator", "plugin", "--target", "Yield", "--do", "Irrigation=high")
+    assert rc == 0 and "Exact answer from the network 'greenhouse'" in text
+
+
+def test_estimate_from_csv_and_graph(capsys, tmp_path):
+    import intervgnn as ig
+
+    net = ig.load_network("greenhouse")
+    net.sample(2000, seed=0).to_csv(tmp_path / "rows.csv")
+    graph = "edges:\n" + "".join(f"  - [{a}, {b}]\n" for a, b in net.graph.edges)
+    (tmp_path / "g.yaml").write_text(graph)
+    rc, text, _ = run(
+        capsys, "estimate", "--data", str(tmp_path / "rows.csv"), "--graph", str(tmp_path / "g.yaml"),
+        "--estimator", "plugin", "--target", "Yield", "--do", "Irrigation=high", "--given", "Shading=on",
+    )
+    assert rc == 0 and "P(Yield | do(Irrigation=high), Shading=on)" in text
+    rc, _, err = run(capsys, "estimate", "--data", str(tmp_path / "rows.csv"), "--target", "Yield", "--do", "Irrigation=high")
+    assert rc == 2 and "give --network NAME, or both --data F.csv and --graph G.yaml" in err
+
+
+def test_estimate_refuses_a_model_for_another_graph(capsys, tmp_path):
+    out = tmp_path / "model"
+    run(capsys, "fit", "--network", "cancer", "--rows", "500", "--epochs", "2", "--quiet", "--out", str(out))
+    (tmp_path / "g.yaml").write_text("edges:\n  - [Pollution, Cancer]\n  - [Smoker, Cancer]\n  - [Cancer, Xray]\n")
+    rc, _, err = run(capsys, "estimate", "--model", str(out), "--graph", str(tmp_path / "g.yaml"), "--target", "Xray", "--do", "Smoker=True")
+    assert rc == 2 and "the model was trained on other variables" in err
