@@ -1,0 +1,295 @@
+"""Experiment configs: YAML (loaded with ``yaml.safe_load``), validated with plain errors.
+
+Shape of a config::
+
+    name: quickstart                 # optional label
+    output: runs/quickstart          # folder for all results
+    networks:                        # catalog names, BIF paths, or mappings
+      - sachs
+      - {network: alarm, hidden: [LVFAILURE]}
+    rows: [1000, 10000]              # observational rows per run
+    experiments:                     # optional experimental rows
+      targets: [Mek, PKC]            # or count: 2 (seeded choice)
+      rows_per_target: 500
+    seeds: [0, 1, 2]
+    queries: {count: 50, kinds: [do, conditional, joint, null], seed: 0}
+    estimators:                      # names, or {name: {settings}}
+      - naive
+      - plugin
+      - backdoor: {classifier: logistic}
+      - neural: {epochs: 200}
+      - neural_ablation
+    metrics: [tv, kl, jsd, hellinger, effect]
+    executor: local                  # or ray
+    workers: 2
+    bootstrap: 1000                  # resamples for the confidence intervals
+"""
+
+from __future__ import annotations
+
+import difflib
+import os
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+import yaml
+
+from ..errors import ConfigError
+from ..eval.queries import QUERY_KINDS
+
+__all__ = ["ExperimentConfig", "NetworkSpec", "EstimatorSpec", "load_config", "parse_config", "METRIC_NAMES"]
+
+TOP_KEYS = (
+    "name", "output", "networks", "rows", "experiments", "seeds", "queries",
+    "estimators", "metrics", "executor", "workers", "bootstrap",
+)
+NETWORK_KEYS = ("network", "hidden", "label")
+QUERY_KEYS = ("count", "kinds", "seed")
+EXPERIMENT_KEYS = ("targets", "count", "rows_per_target")
+METRIC_NAMES = ("tv", "kl", "jsd", "hellinger", "effect")
+EXECUTORS = ("local", "ray")
+
+
+def _near(word: str, options) -> str:
+    m = difflib.get_close_matches(str(word), [str(o) for o in options], n=1)
+    return f" (did you mean '{m[0]}'?)" if m else ""
+
+
+def _type_name(value) -> str:
+    return {list: "a list", dict: "a mapping", str: "text", int: "a whole number", float: "a number", bool: "true/false"}.get(
+        type(value), type(value).__name__
+    )
+
+
+def _check_keys(where: str, doc: Mapping, allowed) -> None:
+    for key in doc:
+        if key not in allowed:
+            raise ConfigError(f"{where}: unknown key '{key}'{_near(key, allowed)}; keys are: {', '.join(allowed)}")
+
+
+def _int_list(where: str, value, minimum: int = 0) -> list[int]:
+    if isinstance(value, int) and not isinstance(value, bool):
+        value = [value]
+    if not isinstance(value, list):
+        raise ConfigError(f"{where}: expected a whole number or a list of them, got {_type_name(value)}")
+    out = []
+    for v in value:
+        if isinstance(v, bool) or not isinstance(v, int):
+            raise ConfigError(f"{where}: expected whole numbers, got {v!r}")
+        if v < minimum:
+            raise ConfigError(f"{where}: {v} is below the minimum of {minimum}")
+        out.append(v)
+    return out
+
+
+@dataclass(frozen=True)
+class NetworkSpec:
+    """A network of the grid: where it comes from and which of its variables are hidden."""
+
+    source: str
+    label: str
+    hidden: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class EstimatorSpec:
+    """An estimator of the grid: registry name, label in the results, settings."""
+
+    kind: str
+    label: str
+    settings: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class ExperimentConfig:
+    name: str
+    output: str
+    networks: tuple[NetworkSpec, ...]
+    rows: tuple[int, ...]
+    seeds: tuple[int, ...]
+    estimators: tuple[EstimatorSpec, ...]
+    query_count: int = 50
+    query_kinds: tuple[str, ...] = ("do",)
+    query_seed: int = 0
+    experiment_targets: tuple[str, ...] = ()
+    experiment_count: int = 0
+    rows_per_target: int = 0
+    metrics: tuple[str, ...] = ("tv",)
+    executor: str = "local"
+    workers: int = 1
+    bootstrap: int = 1000
+    source: str = "<config>"
+
+    @property
+    def grid_size(self) -> int:
+        return len(self.networks) * len(self.rows) * len(self.seeds) * len(self.estimators)
+
+
+def _parse_network(where: str, item) -> NetworkSpec:
+    from ..bn.catalog import CATALOG
+
+    if isinstance(item, str):
+        item = {"network": item}
+    if not isinstance(item, Mapping):
+        raise ConfigError(f"{where}: expected a network name or a mapping, got {_type_name(item)}")
+    _check_keys(where, item, NETWORK_KEYS)
+    src = item.get("network")
+    if not isinstance(src, str) or not src:
+        raise ConfigError(f"{where}: 'network' must name a shipped network or a BIF file")
+    if src not in CATALOG and not os.path.exists(src):
+        raise ConfigError(
+            f"{where}: unknown network '{src}'{_near(src, CATALOG)}; shipped networks are: "
+            f"{', '.join(CATALOG)} (or give the path of a BIF file)"
+        )
+    hidden = item.get("hidden", [])
+    if not isinstance(hidden, list) or not all(isinstance(h, str) for h in hidden):
+        raise ConfigError(f"{where}.hidden: expected a list of variable names")
+    label = item.get("label") or (src if src in CATALOG else os.path.splitext(os.path.basename(src))[0])
+    if hidden and "label" not in item:
+        label = f"{label}-hidden"
+    return NetworkSpec(src, str(label), tuple(hidden))
+
+
+def _parse_estimator(where: str, item) -> EstimatorSpec:
+    from .registry import ESTIMATORS, check_settings
+
+    if isinstance(item, str):
+        kind, settings = item, {}
+    elif isinstance(item, Mapping) and len(item) == 1:
+        kind, settings = next(iter(item.items()))
+        settings = {} if settings is None else settings
+    else:
+        raise ConfigError(f"{where}: expected an estimator name or a one-key mapping name: {{settings}}")
+    if kind not in ESTIMATORS:
+        raise ConfigError(f"{where}: unknown estimator '{kind}'{_near(kind, ESTIMATORS)}; estimators are: {', '.join(ESTIMATORS)}")
+    if not isinstance(settings, Mapping):
+        raise ConfigError(f"{where}.{kind}: settings must be a mapping, got {_type_name(settings)}")
+    settings = dict(settings)
+    label = settings.pop("label", kind)
+    if not isinstance(label, str) or not label:
+        raise ConfigError(f"{where}.{kind}.label: expected text")
+    check_settings(f"{where}.{kind}", kind, settings)
+    return EstimatorSpec(kind, label, settings)
+
+
+def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
+    """Validate a parsed config document.
+
+    Raises
+    ------
+    ConfigError
+        Unknown key (with the nearest valid one), wrong type, unknown
+        network, estimator, metric, query kind or executor, or an empty grid.
+    """
+    if not isinstance(doc, Mapping):
+        raise ConfigError(f"{source}: expected a mapping of settings at the top")
+    _check_keys(source, doc, TOP_KEYS)
+    for key in ("networks", "rows", "seeds", "estimators"):
+        if key not in doc:
+            raise ConfigError(f"{source}: missing key '{key}'")
+    name = doc.get("name") or os.path.splitext(os.path.basename(source))[0]
+    output = doc.get("output") or os.path.join("runs", str(name))
+    if not isinstance(output, str):
+        raise ConfigError(f"{source}: 'output' must be a folder path, got {_type_name(output)}")
+    if not isinstance(doc["networks"], list):
+        raise ConfigError(f"{source}: 'networks' must be a list, got {_type_name(doc['networks'])}")
+    networks = tuple(_parse_network(f"networks[{i}]", n) for i, n in enumerate(doc["networks"]))
+    labels = [n.label for n in networks]
+    for lab in labels:
+        if labels.count(lab) > 1:
+            raise ConfigError(f"networks: label '{lab}' is used twice; give each a distinct 'label'")
+    rows = tuple(_int_list("rows", doc["rows"], minimum=1))
+    seeds = tuple(_int_list("seeds", doc["seeds"], minimum=0))
+    if not isinstance(doc["estimators"], list):
+        raise ConfigError(f"{source}: 'estimators' must be a list, got {_type_name(doc['estimators'])}")
+    estimators = tuple(_parse_estimator(f"estimators[{i}]", e) for i, e in enumerate(doc["estimators"]))
+    elabels = [e.label for e in estimators]
+    for lab in elabels:
+        if elabels.count(lab) > 1:
+            raise ConfigError(f"estimators: label '{lab}' is used twice; give one a distinct 'label' setting")
+    q = doc.get("queries", {}) or {}
+    if not isinstance(q, Mapping):
+        raise ConfigError(f"queries: expected a mapping, got {_type_name(q)}")
+    _check_keys("queries", q, QUERY_KEYS)
+    count = q.get("count", 50)
+    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+        raise ConfigError(f"queries.count: expected a whole number of at least 1, got {count!r}")
+    kinds = q.get("kinds", ["do"])
+    if isinstance(kinds, str):
+        kinds = [kinds]
+    if not isinstance(kinds, list) or not kinds:
+        raise ConfigError("queries.kinds: expected a non-empty list")
+    # YAML reads a bare `null` as nothing; in this list it can only mean the null-query kind
+    kinds = ["null" if k is None else k for k in kinds]
+    for k in kinds:
+        if k not in QUERY_KINDS:
+            raise ConfigError(f"queries.kinds: unknown query kind '{k}'{_near(k, QUERY_KINDS)}; kinds are: {', '.join(QUERY_KINDS)}")
+    qseed = q.get("seed", 0)
+    if isinstance(qseed, bool) or not isinstance(qseed, int):
+        raise ConfigError(f"queries.seed: expected a whole number, got {qseed!r}")
+    ex = doc.get("experiments") or {}
+    if not isinstance(ex, Mapping):
+        raise ConfigError(f"experiments: expected a mapping, got {_type_name(ex)}")
+    _check_keys("experiments", ex, EXPERIMENT_KEYS)
+    targets = ex.get("targets", [])
+    if not isinstance(targets, list) or not all(isinstance(t, str) for t in targets):
+        raise ConfigError("experiments.targets: expected a list of variable names")
+    ex_count = ex.get("count", 0)
+    if isinstance(ex_count, bool) or not isinstance(ex_count, int) or ex_count < 0:
+        raise ConfigError(f"experiments.count: expected a whole number, got {ex_count!r}")
+    per = ex.get("rows_per_target", 0)
+    if isinstance(per, bool) or not isinstance(per, int) or per < 0:
+        raise ConfigError(f"experiments.rows_per_target: expected a whole number, got {per!r}")
+    if ex and per == 0:
+        raise ConfigError("experiments.rows_per_target: give the number of experimental rows per target")
+    if ex and not targets and ex_count == 0:
+        raise ConfigError("experiments: give 'targets' (variable names) or 'count' (a seeded choice)")
+    metrics = doc.get("metrics", ["tv"])
+    if isinstance(metrics, str):
+        metrics = [metrics]
+    if not isinstance(metrics, list) or not metrics:
+        raise ConfigError("metrics: expected a non-empty list")
+    for m in metrics:
+        if m not in METRIC_NAMES:
+            raise ConfigError(f"metrics: unknown metric '{m}'{_near(m, METRIC_NAMES)}; metrics are: {', '.join(METRIC_NAMES)}")
+    executor = doc.get("executor", "local")
+    if executor not in EXECUTORS:
+        raise ConfigError(f"executor: unknown executor '{executor}'{_near(executor, EXECUTORS)}; executors are: local, ray")
+    workers = doc.get("workers", 1)
+    if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
+        raise ConfigError(f"workers: expected a whole number of at least 1, got {workers!r}")
+    boot = doc.get("bootstrap", 1000)
+    if isinstance(boot, bool) or not isinstance(boot, int) or boot < 0:
+        raise ConfigError(f"bootstrap: expected a whole number, got {boot!r}")
+    cfg = ExperimentConfig(
+        name=str(name), output=output, networks=networks, rows=rows, seeds=seeds, estimators=estimators,
+        query_count=count, query_kinds=tuple(kinds), query_seed=qseed, experiment_targets=tuple(targets),
+        experiment_count=ex_count, rows_per_target=per, metrics=tuple(metrics), executor=executor,
+        workers=workers, bootstrap=boot, source=source,
+    )
+    if cfg.grid_size == 0:
+        empty = [k for k, v in (("networks", networks), ("rows", rows), ("seeds", seeds), ("estimators", estimators)) if not v]
+        raise ConfigError(f"{source}: the grid is empty: no {', no '.join(empty)}")
+    return cfg
+
+
+def load_config(path: str | os.PathLike) -> ExperimentConfig:
+    """Read and validate a config file.
+
+    Raises
+    ------
+    ConfigError
+        Missing file, YAML syntax error (with line), or any problem
+        :func:`parse_config` reports.
+    """
+    source = os.fspath(path)
+    try:
+        with open(source, encoding="utf-8") as fh:
+            doc = yaml.safe_load(fh)
+    except FileNotFoundError:
+        raise ConfigError(f"{source}: no such file") from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f", line {mark.line + 1}" if mark is not None else ""
+        raise ConfigError(f"{source}{where}: not valid YAML ({getattr(exc, 'problem', exc)})") from None
+    return parse_config(doc, source)

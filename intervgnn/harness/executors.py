@@ -1,0 +1,169 @@
+"""Running the grid: in this process, in a local process pool, or on Ray; each finished run saved at once."""
+
+from __future__ import annotations
+
+import glob
+import json
+import os
+from collections.abc import Callable, Iterable
+
+from .._io import atomic_open
+from ..errors import ConfigError
+from .config import ExperimentConfig
+from .runs import FORMAT, RunSpec, execute_run, plan_runs, run_digest
+
+__all__ = ["RunStore", "run_grid"]
+
+
+class RunStore:
+    """One JSON file per finished run under ``<output>/runs/``, each written atomically."""
+
+    def __init__(self, output: str):
+        self.folder = os.path.join(output, "runs")
+
+    def path(self, spec: RunSpec) -> str:
+        return os.path.join(self.folder, spec.key + ".json")
+
+    def prepare(self, resume: bool) -> None:
+        os.makedirs(self.folder, exist_ok=True)
+        # temporary files of a run that was killed while being written
+        for tmp in glob.glob(os.path.join(self.folder, ".*.tmp")):
+            os.remove(tmp)
+        if not resume:
+            for old in glob.glob(os.path.join(self.folder, "*.json")):
+                os.remove(old)
+
+    def finished(self, spec: RunSpec, digest: str) -> bool:
+        p = self.path(spec)
+        if not os.path.exists(p):
+            return False
+        try:
+            with open(p, encoding="utf-8") as fh:
+                rec = json.load(fh)
+        except (OSError, ValueError):
+            return False
+        return rec.get("format") == FORMAT and rec.get("digest") == digest
+
+    def save(self, spec: RunSpec, record: dict) -> None:
+        with atomic_open(self.path(spec), "w") as fh:
+            json.dump(record, fh)
+
+    def load(self, spec: RunSpec) -> dict:
+        with open(self.path(spec), encoding="utf-8") as fh:
+            return json.load(fh)
+
+
+def _init_worker() -> None:
+    import torch
+
+    torch.set_num_threads(1)
+
+
+def _local(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, on_done: Callable) -> None:
+    if workers <= 1 or len(todo) <= 1:
+        for spec in todo:
+            on_done(spec, execute_run(spec, cfg))
+        return
+    import multiprocessing as mp
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+
+    os.environ.setdefault("OMP_NUM_THREADS", "1")
+    with ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("spawn"), initializer=_init_worker) as pool:
+        futures = {pool.submit(execute_run, spec, cfg): spec for spec in todo}
+        for fut in as_completed(futures):
+            on_done(futures[fut], fut.result())
+
+
+def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str | None, on_done: Callable) -> None:
+    try:
+        import ray
+    except ImportError:
+        raise ConfigError("the ray executor needs Ray: pip install 'intervgnn[ray]'") from None
+    started = False
+    if not ray.is_initialized():
+        kwargs = {"include_dashboard": False, "log_to_driver": False, "configure_logging": False}
+        if address:
+            ray.init(address=address, **kwargs)
+        else:
+            ray.init(num_cpus=workers, **kwargs)
+        started = True
+    try:
+        remote = ray.remote(num_cpus=1)(_ray_task)
+        pending = {remote.remote(spec, cfg): spec for spec in todo}
+        while pending:
+            done, _ = ray.wait(list(pending), num_returns=1)
+            for ref in done:
+                spec = pending.pop(ref)
+                on_done(spec, ray.get(ref))
+    finally:
+        if started:
+            ray.shutdown()
+
+
+def _ray_task(spec: RunSpec, cfg: ExperimentConfig) -> dict:
+    _init_worker()
+    return execute_run(spec, cfg)
+
+
+def run_grid(
+    cfg: ExperimentConfig,
+    *,
+    workers: int | None = None,
+    executor: str | None = None,
+    address: str | None = None,
+    resume: bool = False,
+    progress: bool = True,
+    log: Callable[[str], None] | None = None,
+) -> list[RunSpec]:
+    """Run every cell of the grid that is not finished yet; return all run specs.
+
+    Parameters
+    ----------
+    cfg : ExperimentConfig
+    workers, executor : override the config's values.
+    address : str, optional
+        Address of an existing Ray cluster (``--executor ray``); a local Ray
+        instance is started otherwise.
+    resume : bool
+        Keep finished runs (same digest) and run only the others; without
+        it every run is done afresh.
+    progress : bool
+        Show a progress bar over runs.
+    """
+    workers = workers or cfg.workers
+    executor = executor or cfg.executor
+    if executor not in ("local", "ray"):
+        raise ConfigError(f"unknown executor '{executor}'; executors are: local, ray")
+    specs = plan_runs(cfg)
+    store = RunStore(cfg.output)
+    store.prepare(resume)
+    todo = [s for s in specs if not (resume and store.finished(s, run_digest(s, cfg)))]
+    if log:
+        skipped = len(specs) - len(todo)
+        log(f"{len(specs)} runs in the grid; {skipped} already finished, {len(todo)} to run ({executor}, {workers} worker(s))")
+    bar = None
+    if progress and todo:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=len(todo), desc="runs", unit="run")
+
+    def on_done(spec: RunSpec, record: dict) -> None:
+        store.save(spec, record)
+        if bar is not None:
+            bar.set_postfix_str(spec.key[-40:])
+            bar.update(1)
+
+    try:
+        if executor == "local":
+            _local(todo, cfg, workers, on_done)
+        else:
+            _ray(todo, cfg, workers, address, on_done)
+    finally:
+        if bar is not None:
+            bar.close()
+    return specs
+
+
+def load_records(cfg: ExperimentConfig, specs: Iterable[RunSpec]) -> list[dict]:
+    store = RunStore(cfg.output)
+    return [store.load(s) for s in specs]
