@@ -25,13 +25,16 @@ install: $(VENV)/.base
 install-test: $(VENV)/.test
 
 demo: $(VENV)/.base
-	$(VENV)/bin/intervgnn demo
+	$(VENV)/bin/intervgnn run configs/quickstart.yaml
 
 test: $(VENV)/.test
 	$(PY) -m pytest -q || { rc=$$?; if [ $$rc -eq 5 ]; then echo "no tests collected"; else exit $$rc; fi; }
 
 bench: $(VENV)/.test
 	$(PY) experiments/bench/exact_vs_reference.py
+	$(PY) experiments/bench/layer_overhead.py
+	$(PY) experiments/bench/neural_accuracy.py --mixed --out experiments/results/neural_accuracy.json
+	$(PY) experiments/bench/hidden_accuracy.py --out experiments/results/hidden_accuracy.json
 
 clean:
 	rm -rf $(VENV) build *.egg-info
