@@ -31,6 +31,7 @@ from .errors import (
     NotIdentified,
 )
 from .graph import CausalGraph
+from .identify import identify  # the function (it shadows the subpackage's name on purpose)
 from .table import Table
 from .userdata import GraphSpec, load_graph, read_csv
 
@@ -77,7 +78,6 @@ __all__ = [
 _LAZY = {
     "PluginEstimator": "intervgnn.estimators",
     "NeuralEstimator": "intervgnn.estimators",
-    "identify": "intervgnn.identify",
 }
 
 

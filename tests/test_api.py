@@ -24,3 +24,13 @@ def test_star_import():
 
     for name in intervgnn.__all__:
         assert name in ns
+
+
+def test_identify_is_the_function_after_the_subpackage_is_imported():
+    # a subpackage import must not replace the top-level function of the same name
+    import intervgnn as ig
+    import intervgnn.identify  # noqa: F401
+    from intervgnn.estimators import EstimandEstimator  # noqa: F401
+
+    assert callable(ig.identify)
+    assert ig.identify(ig.CausalGraph([("X", "Y")]), "Y", "X").identifiable

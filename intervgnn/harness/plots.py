@@ -71,6 +71,9 @@ def confounded_bars(cfg: ExperimentConfig, records: list[dict], net: NetworkSpec
             r = by_est.get(e, {}).get(q.qid)
             heights.append(np.asarray(r["estimate"])[k] if r and r["estimate"] is not None else np.nan)
         ax.bar(range(len(labels)), heights, color=["black"] + [colors[i % len(colors)] for i in range(len(ests))])
+        for i, h in enumerate(heights):
+            if np.isnan(h):
+                ax.text(i, 0.01, "not\nanswered", ha="center", va="bottom", fontsize=6, rotation=90)
         ax.set_xticks(range(len(labels)))
         ax.set_xticklabels(labels, rotation=45, ha="right", fontsize=7)
         state = q.exact.states[0][k] if len(q.target) == 1 else str(k)
