@@ -407,6 +407,17 @@ def test_error_missing_row_without_default():
     assert_error_at(err, 19, "'C' has no row for (A=a1, B=b0)")
 
 
+def test_error_repeated_row_table_or_default():
+    # a repeated configuration would silently overwrite the earlier row (common practice, no
+    # source); rows after a table still override it (test_rows_override_an_earlier_table)
+    err = parse_error(SMALL.replace("  (a1, b0) 0.4, 0.6;\n", "  (a0, b1) 0.4, 0.6;\n"))
+    assert_error_at(err, 23, "'C' has two rows for (A=a0, B=b1); the first is on line 21")
+    err = parse_error(SMALL.replace("  table 0.3, 0.7;\n", "  table 0.3, 0.7;\n  table 0.5, 0.5;\n"))
+    assert_error_at(err, 15, "'A' has a table after earlier entries (line 14); a table must come first")
+    err = parse_error(SMALL.replace("(a1, b2) 0.6, 0.4;", "(a1, b2) 0.6, 0.4;\n  default 0.5, 0.5;\n  default 0.4, 0.6;"))
+    assert_error_at(err, 27, "'C' has a second default row (the first is on line 26)")
+
+
 def test_error_undeclared_variable_and_parent():
     err = parse_error(SMALL + "probability ( Z ) {\n  table 1.0;\n}\n")
     assert_error_at(err, 27, "probability block for undeclared variable 'Z'")

@@ -384,6 +384,8 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             raise BIFParseError(f"the CPT of '{child}' would have {n_rows * k} entries; too large", source, line)
         table = np.zeros((n_rows, k))
         filled = np.zeros(n_rows, dtype=bool)
+        by_row = np.zeros(n_rows, dtype=bool)  # given by a "(states) values;" row (a table may be overridden by rows)
+        table_line = None
         row_line = np.full(n_rows, line)
         default = None
         lookups = [{s: i for i, s in enumerate(states[p])} for p in parents]
@@ -394,12 +396,22 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                     raise BIFParseError(
                         f"table of '{child}' has {len(vals)} values, expected {n_rows * k}", source, eline
                     )
+                if table_line is not None or by_row.any():
+                    first = table_line if table_line is not None else int(row_line[by_row].min())
+                    raise BIFParseError(
+                        f"'{child}' has a table after earlier entries (line {first}); a table must come first",
+                        source,
+                        eline,
+                    )
+                table_line = eline
                 table[:] = np.array(vals).reshape(k, n_rows).T
                 filled[:] = True
                 row_line[:] = eline
             elif kind == "default":
                 if len(vals) != k:
                     raise BIFParseError(f"default row of '{child}' has {len(vals)} values, expected {k}", source, eline)
+                if default is not None:
+                    raise BIFParseError(f"'{child}' has a second default row (the first is on line {default[1]})", source, eline)
                 default = (vals, eline)
             else:
                 if len(cfg) != len(parents):
@@ -418,8 +430,13 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                             eline,
                         )
                     r += look[s] * int(stv)
+                if by_row[r]:
+                    cfg_txt = ", ".join(f"{p}={s}" for p, s in zip(parents, cfg))
+                    raise BIFParseError(
+                        f"'{child}' has two rows for ({cfg_txt}); the first is on line {int(row_line[r])}", source, eline
+                    )
                 table[r] = vals
-                filled[r] = True
+                filled[r] = by_row[r] = True
                 row_line[r] = eline
         missing = np.flatnonzero(~filled)
         if missing.size:
