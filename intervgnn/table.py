@@ -438,6 +438,8 @@ class Table:
         DataError
             Empty file, ragged line, missing or extra column, unknown state,
             missing value: the message names the file, row and column.
+            Blank lines are skipped (except in a one-column file, where a
+            blank line is a missing value).
         """
         source = str(path) if not isinstance(path, io.TextIOBase) else getattr(path, "name", "<stream>")
 
@@ -465,13 +467,18 @@ class Table:
         except OSError as exc:
             why = f"{exc.__class__.__name__}: {exc.strerror or exc}"
             raise DataError(f"{source}: cannot read the file ({why})") from None
+        while text_rows and not text_rows[0][1]:  # blank lines before the header
+            text_rows.pop(0)
         if not text_rows or not any(h.strip() for h in text_rows[0][1]):
             raise DataError(f"{source}: the file is empty; expected a header row")
         header = [h.strip() for h in text_rows[0][1]]
         if header[0].startswith("\ufeff"):  # a stream opened without utf-8-sig
             header[0] = header[0][1:].strip()
-        body = [fields for _, fields in text_rows[1:]]
-        lines = [first for first, _ in text_rows[1:]]
+        # a blank line carries no row (as trailing blank lines often do); with a
+        # single column it is that column's value left empty (a missing value)
+        data_rows = [(first, fields if fields else [""]) for first, fields in text_rows[1:] if fields or len(header) == 1]
+        body = [fields for _, fields in data_rows]
+        lines = [first for first, _ in data_rows]
         for line, row in zip(lines, body):
             if len(row) != len(header):
                 raise DataError(f"{source}, line {line}: expected {len(header)} fields, got {len(row)}")
