@@ -29,6 +29,7 @@ from .errors import (
     CheckpointError,
     ConfigError,
     NotIdentified,
+    WriteError,
 )
 from .graph import CausalGraph
 from .identify import identify  # the function (it shadows the subpackage's name on purpose)
@@ -70,6 +71,7 @@ __all__ = [
     "CheckpointError",
     "ConfigError",
     "NotIdentified",
+    "WriteError",
     "identify",
 ]
 

@@ -7,17 +7,36 @@ import gzip
 import os
 import tempfile
 
+from .errors import WriteError
+
+
+def _why(exc: OSError) -> str:
+    return f"{exc.__class__.__name__}: {exc.strerror or exc}"
+
+
+def make_folder(path: str | os.PathLike) -> None:
+    """``os.makedirs(path, exist_ok=True)``, raising :class:`~intervgnn.errors.WriteError` naming ``path``."""
+    try:
+        os.makedirs(path, exist_ok=True)
+    except OSError as exc:
+        raise WriteError(f"{os.fspath(path)}: cannot create the folder ({_why(exc)})") from None
+
 
 @contextlib.contextmanager
 def atomic_open(path: str | os.PathLike, mode: str = "w", newline: str | None = None, compress: bool = False):
     """Open a temporary file next to ``path``; on success rename it over ``path``.
 
     A failure (an exception inside the block, or in the rename) leaves any
-    existing ``path`` untouched and no temporary file behind.
+    existing ``path`` untouched and no temporary file behind. An operating
+    system error (missing folder, no permission, disk full) is raised as
+    :class:`~intervgnn.errors.WriteError` naming ``path``.
     """
     path = os.fspath(path)
     folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(prefix=f".{os.path.basename(path)}.", suffix=".tmp", dir=folder)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{os.path.basename(path)}.", suffix=".tmp", dir=folder)
+    except OSError as exc:
+        raise WriteError(f"{path}: cannot write the file ({_why(exc)})") from None
     os.close(fd)
     try:
         if compress:
@@ -32,6 +51,10 @@ def atomic_open(path: str | os.PathLike, mode: str = "w", newline: str | None = 
         os.umask(umask)
         os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual permissions
         os.replace(tmp, path)
+    except WriteError:
+        raise
+    except OSError as exc:
+        raise WriteError(f"{path}: cannot write the file ({_why(exc)})") from None
     finally:
         if os.path.exists(tmp):
             os.remove(tmp)

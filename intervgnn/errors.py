@@ -23,6 +23,7 @@ __all__ = [
     "CheckpointError",
     "ConfigError",
     "NotIdentified",
+    "WriteError",
 ]
 
 
@@ -109,3 +110,7 @@ class CheckpointError(IntervgnnError, ValueError):
 
 class ConfigError(IntervgnnError, ValueError):
     """An experiment config is invalid; the message names the key."""
+
+
+class WriteError(IntervgnnError, OSError):
+    """A file could not be written (missing folder, no permission, disk full); names the file."""

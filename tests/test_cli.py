@@ -47,6 +47,17 @@ def test_sample_writes_csv(capsys, tmp_path):
     assert path.read_text().splitlines()[0] == "A,S,E,O,R,T"
 
 
+def test_write_failure_is_a_clean_error(capsys, tmp_path):
+    blocker = tmp_path / "afile"
+    blocker.write_text("not a folder")
+    rc, _, err = run(capsys, "sample", "--network", "survey", "--rows", "5", "--out", str(blocker / "rows.csv"))
+    assert rc == 2
+    assert err.startswith("intervgnn: error: ") and "rows.csv: cannot write the file (NotADirectoryError" in err
+    rc, _, err = run(capsys, "fit", "--network", "cancer", "--rows", "300", "--epochs", "2", "--quiet",
+                     "--out", str(blocker / "model"))
+    assert rc == 2 and "model: cannot create the folder (" in err
+
+
 def test_demo_runs(capsys):
     rc, out, _ = run(capsys, "demo")
     assert rc == 0 and "P(Yield | do(Irrigation=high))" in out and CAUTION in out

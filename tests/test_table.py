@@ -12,7 +12,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import intervgnn.table as table_module
-from intervgnn import DataError, Table
+from intervgnn import DataError, Table, WriteError
 
 STATES = {"A": ("x", "y"), "B": ("u", "v", "w")}
 
@@ -373,10 +373,16 @@ def test_to_csv_stream_and_atomic_write(table, tmp_path, monkeypatch):
         raise OSError("disk full")
 
     monkeypatch.setattr(table_module.os, "replace", failing_replace)
-    with pytest.raises(OSError, match="disk full"):
+    with pytest.raises(WriteError, match=f"{path}: cannot write the file \\(OSError: disk full\\)"):
         table.to_csv(path)
     assert path.read_text() == "old"
     assert os.listdir(tmp_path) == ["kept.csv"]
+
+
+def test_to_csv_into_a_missing_folder_names_the_file(table, tmp_path):
+    target = tmp_path / "no" / "such" / "rows.csv"
+    with pytest.raises(WriteError, match="rows.csv: cannot write the file \\(FileNotFoundError: No such file or directory\\)"):
+        table.to_csv(target)
 
 
 def test_to_csv_refuses_what_read_csv_would_misread(tmp_path):

@@ -10,7 +10,7 @@ from collections.abc import Mapping
 import numpy as np
 import torch
 
-from .._io import atomic_open
+from .._io import atomic_open, make_folder
 from ..bn.network import CausalNetwork
 from ..errors import CheckpointError, DataError, NotIdentified, QueryError
 from ..graph import CausalGraph
@@ -273,7 +273,7 @@ class NeuralEstimator(Estimator):
         from .. import __version__
 
         path = os.fspath(path)
-        os.makedirs(path, exist_ok=True)
+        make_folder(path)
         weights = os.path.join(path, WEIGHTS_FILE)
         with atomic_open(weights, "wb") as fh:
             torch.save(self.model_.state_dict(), fh)

@@ -7,7 +7,7 @@ import json
 import os
 from collections.abc import Callable, Iterable
 
-from .._io import atomic_open
+from .._io import atomic_open, make_folder
 from ..errors import ConfigError
 from .config import ExperimentConfig
 from .runs import FORMAT, RunSpec, execute_run, plan_runs, run_digest
@@ -25,7 +25,7 @@ class RunStore:
         return os.path.join(self.folder, spec.key + ".json")
 
     def prepare(self, resume: bool) -> None:
-        os.makedirs(self.folder, exist_ok=True)
+        make_folder(self.folder)
         # temporary files of a run that was killed while being written
         for tmp in glob.glob(os.path.join(self.folder, ".*.tmp")):
             os.remove(tmp)

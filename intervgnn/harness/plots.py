@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .._io import atomic_open
 from .config import ExperimentConfig, NetworkSpec
 from .runs import prepared_network
 
@@ -43,8 +44,11 @@ def error_vs_rows(cfg: ExperimentConfig, summary: list[dict], network: str, path
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=7, ncol=2)
     fig.tight_layout()
-    fig.savefig(path, dpi=110)
-    plt.close(fig)
+    try:
+        with atomic_open(path, "wb") as fh:
+            fig.savefig(fh, dpi=110, format="png")
+    finally:
+        plt.close(fig)
     return path
 
 
@@ -82,6 +86,9 @@ def confounded_bars(cfg: ExperimentConfig, records: list[dict], net: NetworkSpec
     axes[0][0].set_ylabel("probability")
     fig.suptitle(f"{net.label}: most confounded queries, {n_max} rows, seed {seed}", fontsize=9)
     fig.tight_layout()
-    fig.savefig(path, dpi=110)
-    plt.close(fig)
+    try:
+        with atomic_open(path, "wb") as fh:
+            fig.savefig(fh, dpi=110, format="png")
+    finally:
+        plt.close(fig)
     return path

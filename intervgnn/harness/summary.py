@@ -9,7 +9,7 @@ from collections import defaultdict
 
 import numpy as np
 
-from .._io import atomic_open
+from .._io import atomic_open, make_folder
 from .config import ExperimentConfig
 from .runs import prepared_network
 
@@ -177,7 +177,7 @@ def write_outputs(cfg: ExperimentConfig, records: list[dict]) -> dict[str, str]:
     from .plots import confounded_bars, error_vs_rows
     from .report import write_report
 
-    os.makedirs(cfg.output, exist_ok=True)
+    make_folder(cfg.output)
     query_rows, summary = summarise(cfg, records)
     paths = {
         "queries": os.path.join(cfg.output, "queries.csv"),
@@ -195,7 +195,7 @@ def write_outputs(cfg: ExperimentConfig, records: list[dict]) -> dict[str, str]:
     with atomic_open(paths["summary_md"], "w") as fh:
         fh.write("\n".join(md))
     plot_dir = os.path.join(cfg.output, "plots")
-    os.makedirs(plot_dir, exist_ok=True)
+    make_folder(plot_dir)
     images = []
     for net in cfg.networks:
         images.append(error_vs_rows(cfg, summary, net.label, os.path.join(plot_dir, f"error_vs_rows_{net.label}.png")))
