@@ -19,7 +19,8 @@ weights and differs only in how do(X=x) is answered; with mixed rows it is
 trained on its own.
 
 Run: python experiments/bench/neural_accuracy.py [--networks ...] [--rows 1000 10000]
-     [--seeds 0 1 2] [--mixed] [--out experiments/results/neural_accuracy.json]
+     [--seeds 0 1 2] [--mixed] [--mixed-only] [--mixed-seeds 0 1 ... 9] [--jobs 2]
+     [--out experiments/results/neural_accuracy.json]
 """
 
 from __future__ import annotations
@@ -106,6 +107,81 @@ def mean(xs):
     return statistics.fmean(xs) if xs else float("nan")
 
 
+def mixed_targets(net):
+    """The four seeded variables that get experimental rows."""
+    rng = np.random.default_rng(0)
+    cands = [v for v in net.variables if net.graph.descendants(v)]
+    return [cands[i] for i in rng.choice(len(cands), size=min(4, len(cands)), replace=False)]
+
+
+def _mixed_job(job):
+    """One fit for the mixed comparison: (network, seed, 'obs' or 'mixed') -> record."""
+    name, seed, kind, n_queries, threads = job
+    torch.set_num_threads(threads)
+    net = ig.load_network(name)
+    queries = make_query_set(net, n_queries, kinds=("do",), seed=0)
+    rows = net.sample(10_000, seed=seed)
+    if kind == "mixed":
+        rows = ig.Table.concat([rows, experimental_rows(net, mixed_targets(net), 500, seed=100 + seed)])
+    rec = run_one(net, queries, rows, seed, ablation=False)
+    rec.update({"network": name, "rows": rows.n_rows, "seed": seed, "mixed": kind == "mixed"})
+    if kind == "mixed":
+        rec["experimental_on"] = mixed_targets(net)
+    return rec
+
+
+def paired_summary(name, recs):
+    """Per-seed ratios with and without the experimental rows, and their paired difference."""
+    by = {(r["seed"], bool(r.get("mixed"))): r for r in recs if r["network"] == name}
+    seeds = sorted({s for s, _ in by if (s, True) in by and (s, False) in by})
+    ro = np.array([by[s, False]["neural"] / by[s, False]["plugin"] for s in seeds])
+    rm = np.array([by[s, True]["neural"] / by[s, True]["plugin"] for s in seeds])
+    d = rm - ro
+    se = float(d.std(ddof=1) / np.sqrt(len(d))) if len(d) > 1 else float("nan")
+    return {
+        "network": name, "seeds": seeds, "ratio_obs": float(ro.mean()), "ratio_mixed": float(rm.mean()),
+        "diff": float(d.mean()), "diff_se": se, "mixed_better_seeds": int((d <= 0).sum()),
+        "plugin_mixed": mean(by[s, True]["plugin"] for s in seeds), "neural_mixed": mean(by[s, True]["neural"] for s in seeds),
+        "neural_obs": mean(by[s, False]["neural"] for s in seeds),
+    }
+
+
+def run_mixed(args, results):
+    """10,000 observational rows against the same rows + 4 x 500 experimental rows, paired by seed."""
+    seeds = args.mixed_seeds or args.seeds
+    jobs = []
+    for name in args.networks:
+        for seed in seeds:
+            have_obs = any(r["network"] == name and r["rows"] == 10_000 and r["seed"] == seed and not r.get("mixed")
+                           for r in results["runs"])
+            kinds = ["mixed"] if have_obs else ["obs", "mixed"]
+            jobs += [(name, seed, k, args.queries, 1 if args.jobs > 1 else args.threads) for k in kinds]
+    if args.jobs > 1:
+        import multiprocessing as mp
+
+        with mp.get_context("spawn").Pool(args.jobs) as pool:
+            recs = pool.map(_mixed_job, jobs, chunksize=1)
+    else:
+        recs = [_mixed_job(j) for j in jobs]
+    results["runs"] += recs
+    runs = [r for r in results["runs"] if r["rows"] >= 10_000]
+    print(f"mixed rows (10,000 obs + 4 x 500 exp), seeds {seeds}: neural/plugin ratio per seed, paired")
+    print(f"{'network':<10} {'obs':>6} {'mixed':>6} {'diff':>7} {'+-se':>6} {'mixed<=obs':>10} | "
+          f"{'plugin':>7} {'neural':>7} (mixed; neural obs alone)  experimental rows on")
+    results["mixed_summary"] = []
+    for name in args.networks:
+        s = paired_summary(name, runs)
+        results["mixed_summary"].append(s)
+        print(
+            f"{name:<10} {s['ratio_obs']:>6.3f} {s['ratio_mixed']:>6.3f} {s['diff']:>+7.3f} {s['diff_se']:>6.3f} "
+            f"{s['mixed_better_seeds']:>4}/{len(s['seeds']):<5} | {s['plugin_mixed']:>7.4f} {s['neural_mixed']:>7.4f} "
+            f"({s['neural_obs']:.4f})  {', '.join(mixed_targets(ig.load_network(name)))}",
+            flush=True,
+        )
+    d = np.array([x["diff"] for x in results["mixed_summary"]])
+    print(f"all networks: mean paired difference {d.mean():+.3f}")
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--networks", nargs="+", default=["sachs", "child", "insurance", "alarm"])
@@ -113,6 +189,9 @@ def main():
     ap.add_argument("--seeds", nargs="+", type=int, default=[0, 1, 2])
     ap.add_argument("--queries", type=int, default=50)
     ap.add_argument("--mixed", action="store_true", help="also run observational + experimental rows")
+    ap.add_argument("--mixed-only", action="store_true", help="run only the mixed comparison (implies --mixed)")
+    ap.add_argument("--mixed-seeds", nargs="+", type=int, default=None, help="seeds of the mixed comparison (default: --seeds)")
+    ap.add_argument("--jobs", type=int, default=1, help="parallel fits in the mixed comparison (one thread each)")
     ap.add_argument("--threads", type=int, default=2)
     ap.add_argument("--out", default=None, help="write all figures as JSON here")
     args = ap.parse_args()
@@ -123,9 +202,10 @@ def main():
         f"{'network':<10} {'rows':>6} {'plugin':>7} {'neural':>7} {'ratio':>6} | {'plug c':>7} {'neur c':>7} "
         f"{'ratio c':>7} {'ablat c':>7} | {'train s':>7} {'100 q s':>7}"
     )
-    print("mean TV to the exact answer (c: confounded subset), means over seeds", args.seeds)
-    print(header)
-    for name in args.networks:
+    if not args.mixed_only:
+        print("mean TV to the exact answer (c: confounded subset), means over seeds", args.seeds)
+        print(header)
+    for name in [] if args.mixed_only else args.networks:
         net = ig.load_network(name)
         queries = make_query_set(net, args.queries, kinds=("do",), seed=0)
         n_conf = sum(q.confounded for q in queries)
@@ -144,33 +224,8 @@ def main():
                 f"{ac:>7.4f} | {mean(r['train_s'] for r in recs):>7.1f} {mean(r['query_s_100'] for r in recs):>7.2f}",
                 flush=True,
             )
-        if args.mixed:
-            recs_obs, recs_mix = [], []
-            rng = np.random.default_rng(0)
-            cands = [v for v in net.variables if net.graph.descendants(v)]
-            targets = [cands[i] for i in rng.choice(len(cands), size=min(4, len(cands)), replace=False)]
-            for seed in args.seeds:
-                obs = net.sample(10_000, seed=seed)
-                exp = experimental_rows(net, targets, 500, seed=100 + seed)
-                mixed = ig.Table.concat([obs, exp])
-                r_obs = next(
-                    (r for r in results["runs"] if r["network"] == name and r["rows"] == 10_000 and r["seed"] == seed
-                     and not r.get("mixed")),
-                    None,
-                ) or run_one(net, queries, obs, seed, ablation=False)
-                r_mix = run_one(net, queries, mixed, seed, ablation=False)
-                r_mix.update({"network": name, "rows": mixed.n_rows, "seed": seed, "mixed": True, "experimental_on": targets})
-                results["runs"].append(r_mix)
-                recs_obs.append(r_obs)
-                recs_mix.append(r_mix)
-            ro = mean(r["neural"] / r["plugin"] for r in recs_obs)
-            rm = mean(r["neural"] / r["plugin"] for r in recs_mix)
-            print(
-                f"{name:<10} mixed (10,000 obs + 4 x 500 exp on {', '.join(targets)}): neural/plugin ratio "
-                f"{rm:.2f} (observational alone {ro:.2f}); mean TV plugin {mean(r['plugin'] for r in recs_mix):.4f} "
-                f"neural {mean(r['neural'] for r in recs_mix):.4f}",
-                flush=True,
-            )
+    if args.mixed or args.mixed_only:
+        run_mixed(args, results)
     if args.out:
         os.makedirs(os.path.dirname(os.path.abspath(args.out)), exist_ok=True)
         with open(args.out, "w") as fh:
