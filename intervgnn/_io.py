@@ -14,12 +14,18 @@ def _why(exc: OSError) -> str:
     return f"{exc.__class__.__name__}: {exc.strerror or exc}"
 
 
+def _write_error(message: str, exc: OSError, path: str) -> WriteError:
+    err = WriteError(message)
+    err.errno, err.strerror, err.filename = exc.errno, exc.strerror, path
+    return err
+
+
 def make_folder(path: str | os.PathLike) -> None:
     """``os.makedirs(path, exist_ok=True)``, raising :class:`~intervgnn.errors.WriteError` naming ``path``."""
     try:
         os.makedirs(path, exist_ok=True)
     except OSError as exc:
-        raise WriteError(f"{os.fspath(path)}: cannot create the folder ({_why(exc)})") from None
+        raise _write_error(f"{os.fspath(path)}: cannot create the folder ({_why(exc)})", exc, os.fspath(path)) from exc
 
 
 @contextlib.contextmanager
@@ -36,7 +42,7 @@ def atomic_open(path: str | os.PathLike, mode: str = "w", newline: str | None = 
     try:
         fd, tmp = tempfile.mkstemp(prefix=f".{os.path.basename(path)}.", suffix=".tmp", dir=folder)
     except OSError as exc:
-        raise WriteError(f"{path}: cannot write the file ({_why(exc)})") from None
+        raise _write_error(f"{path}: cannot write the file ({_why(exc)})", exc, path) from exc
     os.close(fd)
     try:
         if compress:
@@ -54,7 +60,9 @@ def atomic_open(path: str | os.PathLike, mode: str = "w", newline: str | None = 
     except WriteError:
         raise
     except OSError as exc:
-        raise WriteError(f"{path}: cannot write the file ({_why(exc)})") from None
+        if exc.filename is not None and os.fspath(exc.filename) not in (tmp, path):
+            raise  # about another file (say, one the caller reads inside the block)
+        raise _write_error(f"{path}: cannot write the file ({_why(exc)})", exc, path) from exc
     finally:
         if os.path.exists(tmp):
             os.remove(tmp)

@@ -113,4 +113,11 @@ class ConfigError(IntervgnnError, ValueError):
 
 
 class WriteError(IntervgnnError, OSError):
-    """A file could not be written (missing folder, no permission, disk full); names the file."""
+    """A file could not be written (missing folder, no permission, disk full); names the file.
+
+    ``errno``, ``strerror`` and ``filename`` are those of the operating
+    system error (its cause), so code that checks them keeps working.
+    """
+
+    def __str__(self) -> str:
+        return str(self.args[0]) if self.args else ""

@@ -438,8 +438,8 @@ class Table:
         DataError
             Empty file, ragged line, missing or extra column, unknown state,
             missing value: the message names the file, row and column.
-            Blank lines are skipped (except in a one-column file, where a
-            blank line is a missing value).
+            Blank lines are skipped (in a one-column file only trailing
+            ones: a blank line between rows is a missing value there).
         """
         source = str(path) if not isinstance(path, io.TextIOBase) else getattr(path, "name", "<stream>")
 
@@ -474,9 +474,13 @@ class Table:
         header = [h.strip() for h in text_rows[0][1]]
         if header[0].startswith("\ufeff"):  # a stream opened without utf-8-sig
             header[0] = header[0][1:].strip()
-        # a blank line carries no row (as trailing blank lines often do); with a
-        # single column it is that column's value left empty (a missing value)
-        data_rows = [(first, fields if fields else [""]) for first, fields in text_rows[1:] if fields or len(header) == 1]
+        # a blank (or whitespace-only) line carries no row; in a one-column file
+        # it is that column's value left empty (a missing value) unless it trails
+        records_ = text_rows[1:]
+        blank = lambda f: not f or (len(header) > 1 and len(f) == 1 and not f[0].strip())  # noqa: E731
+        while records_ and blank(records_[-1][1]):  # trailing blank lines
+            records_.pop()
+        data_rows = [(first, fields or [""]) for first, fields in records_ if len(header) == 1 or not blank(fields)]
         body = [fields for _, fields in data_rows]
         lines = [first for first, _ in data_rows]
         for line, row in zip(lines, body):

@@ -416,6 +416,8 @@ def test_error_repeated_row_table_or_default():
     assert_error_at(err, 15, "'A' has a table after earlier entries (line 14); a table must come first")
     err = parse_error(SMALL.replace("(a1, b2) 0.6, 0.4;", "(a1, b2) 0.6, 0.4;\n  default 0.5, 0.5;\n  default 0.4, 0.6;"))
     assert_error_at(err, 27, "'C' has a second default row (the first is on line 26)")
+    err = parse_error(SMALL.replace("  table 0.3, 0.7;\n", "  default 0.3, 0.7;\n  table 0.3, 0.7;\n"))
+    assert_error_at(err, 15, "'A' has a table after earlier entries (line 14)")
 
 
 def test_error_undeclared_variable_and_parent():

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import errno
 import io
 import os
 import re
@@ -355,6 +356,8 @@ def test_read_csv_skips_blank_lines_but_not_a_blank_single_column_value():
         "data.csv: row 2 (line 4), column 'B': unknown state 'q'; states are: u, v, w"
     )
     assert read_error("A\nx\n\ny\n") == "data.csv: row 2 (line 3), column 'A': missing value"
+    assert Table.read_csv(io.StringIO("A\nx\ny\n\n\n")).n_rows == 2  # trailing blank lines of one column
+    assert Table.read_csv(io.StringIO("A,B\nx,u\n   \ny,v\n \n"), states=STATES).n_rows == 2
 
 
 def test_read_csv_header_only():
@@ -381,8 +384,20 @@ def test_to_csv_stream_and_atomic_write(table, tmp_path, monkeypatch):
 
 def test_to_csv_into_a_missing_folder_names_the_file(table, tmp_path):
     target = tmp_path / "no" / "such" / "rows.csv"
-    with pytest.raises(WriteError, match="rows.csv: cannot write the file \\(FileNotFoundError: No such file or directory\\)"):
+    with pytest.raises(WriteError, match="rows.csv: cannot write the file \\(FileNotFoundError: No such file or directory\\)") as info:
         table.to_csv(target)
+    assert info.value.errno == errno.ENOENT and info.value.filename == str(target)
+
+
+def test_atomic_open_leaves_other_files_errors_alone(tmp_path):
+    from intervgnn._io import atomic_open
+
+    with pytest.raises(FileNotFoundError) as info:
+        with atomic_open(tmp_path / "out.txt") as fh:
+            fh.write("x")
+            open(tmp_path / "absent.txt")
+    assert not isinstance(info.value, WriteError)
+    assert os.listdir(tmp_path) == []
 
 
 def test_to_csv_refuses_what_read_csv_would_misread(tmp_path):

@@ -396,8 +396,11 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                     raise BIFParseError(
                         f"table of '{child}' has {len(vals)} values, expected {n_rows * k}", source, eline
                     )
-                if table_line is not None or by_row.any():
-                    first = table_line if table_line is not None else int(row_line[by_row].min())
+                if table_line is not None or by_row.any() or default is not None:
+                    earlier = [table_line] if table_line is not None else []
+                    earlier += [int(row_line[by_row].min())] if by_row.any() else []
+                    earlier += [default[1]] if default is not None else []
+                    first = min(earlier)
                     raise BIFParseError(
                         f"'{child}' has a table after earlier entries (line {first}); a table must come first",
                         source,
@@ -431,7 +434,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                         )
                     r += look[s] * int(stv)
                 if by_row[r]:
-                    cfg_txt = ", ".join(f"{p}={s}" for p, s in zip(parents, cfg))
+                    cfg_txt = ", ".join(f"{p}={s}" for p, s in zip(parents, cfg)) or "no parents"
                     raise BIFParseError(
                         f"'{child}' has two rows for ({cfg_txt}); the first is on line {int(row_line[r])}", source, eline
                     )

@@ -8,7 +8,7 @@ import os
 from collections.abc import Callable, Iterable
 
 from .._io import atomic_open, make_folder
-from ..errors import ConfigError
+from ..errors import ConfigError, WriteError
 from .config import ExperimentConfig
 from .runs import FORMAT, RunSpec, execute_run, plan_runs, run_digest
 
@@ -27,11 +27,16 @@ class RunStore:
     def prepare(self, resume: bool) -> None:
         make_folder(self.folder)
         # temporary files of a run that was killed while being written
-        for tmp in glob.glob(os.path.join(self.folder, ".*.tmp")):
-            os.remove(tmp)
+        stale = glob.glob(os.path.join(self.folder, ".*.tmp"))
         if not resume:
-            for old in glob.glob(os.path.join(self.folder, "*.json")):
+            stale += glob.glob(os.path.join(self.folder, "*.json"))
+        for old in stale:
+            try:
                 os.remove(old)
+            except FileNotFoundError:
+                pass
+            except OSError as exc:
+                raise WriteError(f"{old}: cannot remove the file ({exc.__class__.__name__}: {exc.strerror or exc})") from exc
 
     def finished(self, spec: RunSpec, digest: str) -> bool:
         p = self.path(spec)

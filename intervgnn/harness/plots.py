@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 
 from .._io import atomic_open
@@ -46,7 +48,7 @@ def error_vs_rows(cfg: ExperimentConfig, summary: list[dict], network: str, path
     fig.tight_layout()
     try:
         with atomic_open(path, "wb") as fh:
-            fig.savefig(fh, dpi=110, format="png")
+            fig.savefig(fh, dpi=110, format=os.path.splitext(path)[1][1:].lower() or "png")
     finally:
         plt.close(fig)
     return path
@@ -88,7 +90,7 @@ def confounded_bars(cfg: ExperimentConfig, records: list[dict], net: NetworkSpec
     fig.tight_layout()
     try:
         with atomic_open(path, "wb") as fh:
-            fig.savefig(fh, dpi=110, format="png")
+            fig.savefig(fh, dpi=110, format=os.path.splitext(path)[1][1:].lower() or "png")
     finally:
         plt.close(fig)
     return path
