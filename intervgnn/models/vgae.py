@@ -192,7 +192,11 @@ class InterventionalVGAE(torch.nn.Module):
         if self.num_groups and u is not None:
             gidx = self.node_group.clamp_min(0)  # [N]
             state = u[:, gidx]  # [B, N]: the state of each node's group latent
-            contrib = self.u_emb[gidx.unsqueeze(0).expand_as(state), state]  # [B, N, dim]
+            # an embedding lookup, not advanced indexing: the backward of
+            # u_emb[g, state] accumulates with index_put_, whose order (and so
+            # its float sum) varies between runs with more than one thread
+            flat = self.u_emb.reshape(self.num_groups * self.u_states, -1)
+            contrib = torch.nn.functional.embedding(gidx * self.u_states + state, flat)  # [B, N, dim]
             hears = (self.node_group >= 0).unsqueeze(0).expand(codes.size(0), -1)
             if intervened is not None:
                 hears = hears & ~intervened
