@@ -122,3 +122,18 @@ def test_killed_sweep_resumes_with_nothing_lost_redone_or_half_written(first_swe
     for p, mtime in before.items():
         assert os.stat(p).st_mtime_ns == mtime, f"{os.path.basename(p)} was redone"
     assert read(paths["summary"]) == read(paths_a["summary"])
+
+
+def test_a_metric_added_later_is_scored_on_resume_without_rerunning(tmp_path):
+    # the run files keep estimates, not scores, so a resumed sweep scores every metric of its config
+    cfg, _ = write_config(tmp_path, "metrics", networks=["cancer"], rows=[300], estimators=["naive", "plugin"], metrics=["tv"])
+    run_experiment(cfg, progress=False)
+    runs = sorted(glob.glob(os.path.join(cfg.output, "runs", "*.json")))
+    before = {p: os.stat(p).st_mtime_ns for p in runs}
+    more, _ = write_config(tmp_path, "metrics", networks=["cancer"], rows=[300], estimators=["naive", "plugin"], metrics=["tv", "kl"])
+    paths = run_experiment(more, resume=True, progress=False)
+    assert {p: os.stat(p).st_mtime_ns for p in runs} == before
+    with open(paths["summary"]) as fh:
+        rows = list(csv.DictReader(fh))
+    assert {r["metric"] for r in rows} == {"tv", "kl"}
+    assert all(int(r["n_queries"]) > 0 for r in rows if r["subset"] == "all")

@@ -13,7 +13,6 @@ import numpy as np
 
 from ..bn import load_network
 from ..errors import IntervgnnError, UnsupportedQuery, ZeroEvidenceError
-from ..eval.metrics import METRICS
 from ..eval.queries import EvalQuery, make_query_set
 from ..table import Table
 from .config import EstimatorSpec, ExperimentConfig, NetworkSpec
@@ -142,7 +141,7 @@ def training_rows(prep: Prepared, rows: int, seed: int, rows_per_target: int) ->
 
 
 def execute_run(spec: RunSpec, cfg: ExperimentConfig) -> dict:
-    """Fit one estimator on one set of rows and answer every query; returns the run record."""
+    """Fit one estimator on one set of rows and answer every query; returns the run record (estimates, not scores)."""
     import torch
 
     threads = torch.get_num_threads()
@@ -159,7 +158,7 @@ def execute_run(spec: RunSpec, cfg: ExperimentConfig) -> dict:
         records = []
         t0 = time.perf_counter()
         for q in prep.queries:
-            rec = {"qid": q.qid, "status": "ok", "estimate": None, "metrics": {}}
+            rec = {"qid": q.qid, "status": "ok", "estimate": None}
             try:
                 dist = est.query(list(q.target), do=q.do_dict, given=q.given_dict)
             except UnsupportedQuery as exc:
@@ -169,10 +168,9 @@ def execute_run(spec: RunSpec, cfg: ExperimentConfig) -> dict:
                 rec["status"] = "zero_evidence"
                 rec["message"] = str(exc)
             else:
+                # the estimate is kept, not its scores: metrics are computed when summarising,
+                # so a metric added to the config later needs no rerun
                 rec["estimate"] = dist.probs.ravel().tolist()
-                for m in cfg.metrics:
-                    if m in METRICS:
-                        rec["metrics"][m] = METRICS[m](q.exact, dist)
             records.append(rec)
         query_s = time.perf_counter() - t0
     finally:

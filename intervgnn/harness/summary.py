@@ -10,6 +10,7 @@ from collections import defaultdict
 import numpy as np
 
 from .._io import atomic_open, make_folder
+from ..eval.metrics import METRICS
 from .config import ExperimentConfig
 from .runs import prepared_network
 
@@ -87,7 +88,10 @@ def summarise(cfg: ExperimentConfig, records: list[dict]):
         by_id = {q.qid: q for q in prep.queries}
         for r in rec["queries"]:
             q = by_id[r["qid"]]
-            metrics = dict(r["metrics"])
+            metrics = {}
+            if r["estimate"] is not None:
+                estimate = np.asarray(r["estimate"], dtype=np.float64)
+                metrics = {m: METRICS[m](q.exact, estimate) for m in cfg.metrics if m in METRICS}
             if r["qid"] in effects:
                 metrics["effect"] = effects[r["qid"]]
             for m in cfg.metrics:
