@@ -30,6 +30,7 @@ from .errors import (
     ConfigError,
     NotIdentified,
     WriteError,
+    RunError,
 )
 from .graph import CausalGraph
 from .identify import identify  # the function (it shadows the subpackage's name on purpose)
@@ -72,6 +73,7 @@ __all__ = [
     "ConfigError",
     "NotIdentified",
     "WriteError",
+    "RunError",
     "identify",
 ]
 

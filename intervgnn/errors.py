@@ -24,6 +24,7 @@ __all__ = [
     "ConfigError",
     "NotIdentified",
     "WriteError",
+    "RunError",
 ]
 
 
@@ -121,3 +122,15 @@ class WriteError(IntervgnnError, OSError):
 
     def __str__(self) -> str:
         return str(self.args[0]) if self.args else ""
+
+
+class RunError(IntervgnnError, RuntimeError):
+    """Runs of a sweep failed; the other runs finished and were saved.
+
+    ``failed`` maps each failed run's key to its exception; a later
+    ``--resume`` does only the failed runs (and any never started).
+    """
+
+    def __init__(self, message: str, failed: dict):
+        self.failed = failed
+        super().__init__(message)

@@ -137,3 +137,30 @@ def test_a_metric_added_later_is_scored_on_resume_without_rerunning(tmp_path):
         rows = list(csv.DictReader(fh))
     assert {r["metric"] for r in rows} == {"tv", "kl"}
     assert all(int(r["n_queries"]) > 0 for r in rows if r["subset"] == "all")
+
+
+def test_a_failed_run_costs_no_other_run(tmp_path, monkeypatch):
+    # common practice, no source: one bad cell of a sweep must not throw away the rest
+    from intervgnn.errors import DataError, RunError
+    from intervgnn.harness import executors
+
+    cfg, _ = write_config(tmp_path, "failing", networks=["cancer"], rows=[300], estimators=["naive", "plugin"], seeds=[0, 1])
+    real = executors.execute_run
+
+    def flaky(spec, cfg):
+        if spec.key == "cancer__300__seed0__naive":
+            raise DataError("made to fail")
+        return real(spec, cfg)
+
+    monkeypatch.setattr(executors, "execute_run", flaky)
+    with pytest.raises(RunError, match=r"^1 of 4 runs failed .*--resume.*: cancer__300__seed0__naive: made to fail$") as info:
+        run_experiment(cfg, progress=False)
+    assert list(info.value.failed) == ["cancer__300__seed0__naive"]
+    runs = os.path.join(cfg.output, "runs")
+    saved = sorted(os.path.basename(p) for p in glob.glob(os.path.join(runs, "*.json")))
+    assert saved == ["cancer__300__seed0__plugin.json", "cancer__300__seed1__naive.json", "cancer__300__seed1__plugin.json"]
+    before = {p: os.stat(os.path.join(runs, p)).st_mtime_ns for p in saved}
+    monkeypatch.setattr(executors, "execute_run", real)
+    run_experiment(cfg, resume=True, progress=False)
+    assert len(glob.glob(os.path.join(runs, "*.json"))) == 4
+    assert {p: os.stat(os.path.join(runs, p)).st_mtime_ns for p in saved} == before

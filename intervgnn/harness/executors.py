@@ -8,7 +8,7 @@ import os
 from collections.abc import Callable, Iterable
 
 from .._io import atomic_open, make_folder
-from ..errors import ConfigError, WriteError
+from ..errors import ConfigError, IntervgnnError, RunError, WriteError
 from .config import ExperimentConfig
 from .runs import FORMAT, RunSpec, execute_run, plan_runs, run_digest
 
@@ -64,10 +64,15 @@ def _init_worker() -> None:
     torch.set_num_threads(1)
 
 
-def _local(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, on_done: Callable) -> None:
+def _local(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, on_done: Callable, on_fail: Callable) -> None:
     if workers <= 1 or len(todo) <= 1:
         for spec in todo:
-            on_done(spec, execute_run(spec, cfg))
+            try:
+                record = execute_run(spec, cfg)
+            except Exception as exc:  # one failed run must not cost the others
+                on_fail(spec, exc)
+            else:
+                on_done(spec, record)
         return
     import multiprocessing as mp
     from concurrent.futures import ProcessPoolExecutor, as_completed
@@ -76,10 +81,15 @@ def _local(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, on_done: Ca
     with ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("spawn"), initializer=_init_worker) as pool:
         futures = {pool.submit(execute_run, spec, cfg): spec for spec in todo}
         for fut in as_completed(futures):
-            on_done(futures[fut], fut.result())
+            try:
+                record = fut.result()
+            except Exception as exc:
+                on_fail(futures[fut], exc)
+            else:
+                on_done(futures[fut], record)
 
 
-def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str | None, on_done: Callable) -> None:
+def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str | None, on_done: Callable, on_fail: Callable) -> None:
     try:
         import ray
     except ImportError:
@@ -99,7 +109,13 @@ def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str 
             done, _ = ray.wait(list(pending), num_returns=1)
             for ref in done:
                 spec = pending.pop(ref)
-                on_done(spec, ray.get(ref))
+                try:
+                    record = ray.get(ref)
+                except Exception as exc:
+                    # a task's own exception arrives wrapped; report the original
+                    on_fail(spec, getattr(exc, "cause", None) or exc)
+                else:
+                    on_done(spec, record)
     finally:
         if started:
             ray.shutdown()
@@ -108,6 +124,16 @@ def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str 
 def _ray_task(spec: RunSpec, cfg: ExperimentConfig) -> dict:
     _init_worker()
     return execute_run(spec, cfg)
+
+
+def _failure_message(failed: dict, total: int) -> str:
+    shown = [f"{key}: {exc}" if isinstance(exc, IntervgnnError) else f"{key}: {type(exc).__name__}: {exc}"
+             for key, exc in list(failed.items())[:5]]
+    more = f"; and {len(failed) - 5} more" if len(failed) > 5 else ""
+    return (
+        f"{len(failed)} of {total} runs failed (the others finished and are saved; fix the cause and "
+        f"run again with --resume to do only the rest): " + "; ".join(shown) + more
+    )
 
 
 def run_grid(
@@ -134,6 +160,12 @@ def run_grid(
         it every run is done afresh.
     progress : bool
         Show a progress bar over runs.
+
+    Raises
+    ------
+    RunError
+        Some runs failed; every other run was still done and saved, so a
+        ``resume=True`` call does only the failed ones.
     """
     workers = workers or cfg.workers
     executor = executor or cfg.executor
@@ -152,20 +184,30 @@ def run_grid(
 
         bar = tqdm(total=len(todo), desc="runs", unit="run")
 
+    failed: dict[str, BaseException] = {}
+
     def on_done(spec: RunSpec, record: dict) -> None:
         store.save(spec, record)
         if bar is not None:
             bar.set_postfix_str(spec.key[-40:])
             bar.update(1)
 
+    def on_fail(spec: RunSpec, exc: BaseException) -> None:
+        failed[spec.key] = exc
+        if bar is not None:
+            bar.set_postfix_str(f"failed: {spec.key[-32:]}")
+            bar.update(1)
+
     try:
         if executor == "local":
-            _local(todo, cfg, workers, on_done)
+            _local(todo, cfg, workers, on_done, on_fail)
         else:
-            _ray(todo, cfg, workers, address, on_done)
+            _ray(todo, cfg, workers, address, on_done, on_fail)
     finally:
         if bar is not None:
             bar.close()
+    if failed:
+        raise RunError(_failure_message(failed, len(todo)), failed) from next(iter(failed.values()))
     return specs
 
 
