@@ -7,6 +7,8 @@ values, ``KeyError`` is never used so messages print without quotes).
 
 from __future__ import annotations
 
+import difflib
+
 __all__ = [
     "IntervgnnError",
     "GraphError",
@@ -134,3 +136,9 @@ class RunError(IntervgnnError, RuntimeError):
     def __init__(self, message: str, failed: dict):
         self.failed = failed
         super().__init__(message)
+
+
+def did_you_mean(word, options) -> str:
+    """`` (did you mean 'x'?)`` for the option nearest to ``word``, or ``""`` when none is near."""
+    near = difflib.get_close_matches(str(word), [str(o) for o in options], n=1)
+    return f" (did you mean '{near[0]}'?)" if near else ""

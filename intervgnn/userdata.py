@@ -20,14 +20,13 @@ data, sorted.
 
 from __future__ import annotations
 
-import difflib
 import os
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import yaml
 
-from .errors import DataError, GraphError
+from .errors import DataError, GraphError, did_you_mean
 from .graph import CausalGraph
 from .table import REGIME_COLUMN, Table
 
@@ -47,11 +46,6 @@ class GraphSpec:
     source: str = "<graph>"
 
 
-def _suggest(word: str, options) -> str:
-    near = difflib.get_close_matches(word, list(options), n=1)
-    return f" (did you mean '{near[0]}'?)" if near else ""
-
-
 def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
     """Build a :class:`GraphSpec` from the parsed YAML document.
 
@@ -65,7 +59,7 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
         raise GraphError(f"{source}: expected a mapping with an 'edges' list at the top")
     for key in doc:
         if key not in GRAPH_KEYS:
-            raise GraphError(f"{source}: unknown key '{key}'{_suggest(str(key), GRAPH_KEYS)}; keys are: {', '.join(GRAPH_KEYS)}")
+            raise GraphError(f"{source}: unknown key '{key}'{did_you_mean(str(key), GRAPH_KEYS)}; keys are: {', '.join(GRAPH_KEYS)}")
     raw_edges = doc.get("edges")
     if raw_edges is None:
         raw_edges = []
@@ -95,7 +89,7 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
         for v, st in states.items():
             v = str(v)
             if v not in graph:
-                raise GraphError(f"{source}: states given for '{v}', which is not in the graph{_suggest(v, graph.nodes)}")
+                raise GraphError(f"{source}: states given for '{v}', which is not in the graph{did_you_mean(v, graph.nodes)}")
             if not isinstance(st, list) or not st:
                 raise GraphError(f"{source}: states of '{v}' must be a non-empty list")
             names = tuple(str(s) for s in st)
@@ -117,7 +111,7 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
         a, b = str(pair[0]), str(pair[1])
         for w in (a, b):
             if w not in graph:
-                raise GraphError(f"{source}: confounded pair names '{w}', which is not in the graph{_suggest(w, graph.nodes)}")
+                raise GraphError(f"{source}: confounded pair names '{w}', which is not in the graph{did_you_mean(w, graph.nodes)}")
         confounded.append((a, b))
     if confounded:
         try:
@@ -191,7 +185,7 @@ def read_csv(path: str | os.PathLike, graph) -> Table:
     for v in table.variables:
         if v not in g:
             raise DataError(
-                f"{os.fspath(path)}: column '{v}' is not in the graph{_suggest(v, g.nodes)}; add it to the graph or drop the column"
+                f"{os.fspath(path)}: column '{v}' is not in the graph{did_you_mean(v, g.nodes)}; add it to the graph or drop the column"
             )
     table = table.select(g.nodes)
     if spec.states:

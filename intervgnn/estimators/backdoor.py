@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import DataError, UnsupportedQuery
+from ..errors import DataError, UnsupportedQuery, did_you_mean
 from ..graph import CausalGraph
 from ..query import Query
 from ..table import Table
@@ -65,15 +65,18 @@ class BackdoorEstimator(Estimator):
     def __init__(self, classifier="logistic"):
         self.classifier = classifier
 
-    def fit(self, table: Table, graph: CausalGraph) -> BackdoorEstimator:
+    def _check_settings(self) -> None:
         if isinstance(self.classifier, str):
             if self.classifier not in CLASSIFIERS:
                 raise DataError(
-                    f"unknown classifier '{self.classifier}'; classifiers are: {', '.join(CLASSIFIERS)} "
-                    "(or pass a scikit-learn classifier)"
+                    f"unknown classifier '{self.classifier}'{did_you_mean(self.classifier, CLASSIFIERS)}; "
+                    f"classifiers are: {', '.join(CLASSIFIERS)} (or pass a scikit-learn classifier)"
                 )
         elif not (hasattr(self.classifier, "fit") and hasattr(self.classifier, "predict_proba")):
             raise DataError("classifier must be a name or a scikit-learn classifier with fit and predict_proba")
+
+    def fit(self, table: Table, graph: CausalGraph) -> BackdoorEstimator:
+        self._check_settings()
         table = check_fit_inputs(table, graph)
         self.graph_ = graph
         self.states_ = table.states

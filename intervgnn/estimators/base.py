@@ -10,7 +10,16 @@ from ..graph import CausalGraph
 from ..query import Query, make_query
 from ..table import Table
 
-__all__ = ["Estimator", "check_fit_inputs"]
+__all__ = ["Estimator", "check_fit_inputs", "check_alpha"]
+
+
+def check_alpha(alpha, allow_auto: bool = False) -> None:
+    """Raise DataError unless ``alpha`` is a non-negative number (or ``"auto"`` where allowed)."""
+    if allow_auto and alpha == "auto":
+        return
+    if isinstance(alpha, bool) or not isinstance(alpha, (int, float)) or not alpha >= 0:
+        expected = "a non-negative number or 'auto'" if allow_auto else "a non-negative number"
+        raise DataError(f"alpha must be {expected}, got {alpha!r}")
 
 
 def check_fit_inputs(table: Table, graph: CausalGraph) -> Table:
@@ -50,6 +59,13 @@ class Estimator:
 
     def fit(self, table: Table, graph: CausalGraph) -> Estimator:  # pragma: no cover - abstract
         raise NotImplementedError
+
+    def _check_settings(self) -> None:
+        """Raise an :class:`~intervgnn.errors.IntervgnnError` naming a bad setting.
+
+        ``fit`` calls it first; the harness calls it when it reads a config,
+        so that a bad setting stops a sweep before any run starts.
+        """
 
     # ---------------------------------------------------------------- query
     def _check_fitted(self) -> None:

@@ -6,13 +6,15 @@ import functools
 
 import numpy as np
 
-from ..errors import NotIdentified
+from ..errors import DataError, NotIdentified, did_you_mean
 from ..graph import CausalGraph
 from ..query import Query
 from ..table import Table
-from .base import Estimator, check_fit_inputs
+from .base import Estimator, check_alpha, check_fit_inputs
 
 __all__ = ["EstimandEstimator", "counts_oracle", "network_oracle"]
+
+FORMULAS = ("simplest", "complete")
 
 
 def counts_oracle(table: Table, alpha: float = 0.0):
@@ -68,7 +70,13 @@ class EstimandEstimator(Estimator):
         self.alpha = alpha
         self.formula = formula
 
+    def _check_settings(self) -> None:
+        check_alpha(self.alpha)
+        if self.formula not in FORMULAS:
+            raise DataError(f"unknown formula '{self.formula}'{did_you_mean(self.formula, FORMULAS)}; formulas are: {', '.join(FORMULAS)}")
+
     def fit(self, table: Table, graph: CausalGraph) -> EstimandEstimator:
+        self._check_settings()
         table = check_fit_inputs(table, graph)
         self.graph_ = graph
         self.states_ = table.states

@@ -7,7 +7,7 @@ import numpy as np
 from ..graph import CausalGraph
 from ..query import Query
 from ..table import Table
-from .base import Estimator, check_fit_inputs
+from .base import Estimator, check_alpha, check_fit_inputs
 
 __all__ = ["NaiveEstimator"]
 
@@ -42,7 +42,11 @@ class NaiveEstimator(Estimator):
     def __init__(self, alpha: float = 0.5):
         self.alpha = alpha
 
+    def _check_settings(self) -> None:
+        check_alpha(self.alpha)
+
     def fit(self, table: Table, graph: CausalGraph) -> NaiveEstimator:
+        self._check_settings()
         table = check_fit_inputs(table, graph)
         self.graph_ = graph
         self.states_ = table.states

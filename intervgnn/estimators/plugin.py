@@ -5,11 +5,10 @@ from __future__ import annotations
 import numpy as np
 
 from ..bn.network import CausalNetwork
-from ..errors import DataError
 from ..graph import CausalGraph
 from ..query import Query
 from ..table import Table
-from .base import Estimator, check_fit_inputs
+from .base import Estimator, check_alpha, check_fit_inputs
 
 __all__ = ["PluginEstimator", "count_cpts", "count_table", "loo_alpha", "AUTO_ALPHAS"]
 
@@ -112,9 +111,11 @@ class PluginEstimator(Estimator):
     def __init__(self, alpha: float | str = "auto"):
         self.alpha = alpha
 
+    def _check_settings(self) -> None:
+        check_alpha(self.alpha, allow_auto=True)
+
     def fit(self, table: Table, graph: CausalGraph) -> PluginEstimator:
-        if self.alpha != "auto" and (isinstance(self.alpha, bool) or not isinstance(self.alpha, (int, float)) or self.alpha < 0):
-            raise DataError(f"alpha must be a non-negative number or 'auto', got {self.alpha!r}")
+        self._check_settings()
         table = check_fit_inputs(table, graph)
         self.graph_ = graph
         self.states_ = table.states

@@ -22,19 +22,19 @@ Shape of a config::
     metrics: [tv, kl, jsd, hellinger, effect]
     executor: local                  # or ray
     workers: 2
-    bootstrap: 1000                  # resamples for the confidence intervals
+    bootstrap: 1000                  # resamples for the confidence intervals (0: none, else >= 100)
 """
 
 from __future__ import annotations
 
-import difflib
 import os
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import yaml
 
-from ..errors import ConfigError
+from ..errors import ConfigError, did_you_mean
 from ..eval.queries import QUERY_KINDS
 
 __all__ = ["ExperimentConfig", "NetworkSpec", "EstimatorSpec", "load_config", "parse_config", "METRIC_NAMES"]
@@ -48,11 +48,9 @@ QUERY_KEYS = ("count", "kinds", "seed")
 EXPERIMENT_KEYS = ("targets", "count", "rows_per_target")
 METRIC_NAMES = ("tv", "kl", "jsd", "hellinger", "effect")
 EXECUTORS = ("local", "ray")
-
-
-def _near(word: str, options) -> str:
-    m = difflib.get_close_matches(str(word), [str(o) for o in options], n=1)
-    return f" (did you mean '{m[0]}'?)" if m else ""
+#: fewer resamples give percentile intervals too coarse to read
+MIN_BOOTSTRAP = 100
+_LABEL = re.compile(r"[A-Za-z0-9][A-Za-z0-9._-]*")
 
 
 def _type_name(value) -> str:
@@ -64,7 +62,7 @@ def _type_name(value) -> str:
 def _check_keys(where: str, doc: Mapping, allowed) -> None:
     for key in doc:
         if key not in allowed:
-            raise ConfigError(f"{where}: unknown key '{key}'{_near(key, allowed)}; keys are: {', '.join(allowed)}")
+            raise ConfigError(f"{where}: unknown key '{key}'{did_you_mean(key, allowed)}; keys are: {', '.join(allowed)}")
 
 
 def _int_list(where: str, value, minimum: int = 0) -> list[int]:
@@ -78,8 +76,19 @@ def _int_list(where: str, value, minimum: int = 0) -> list[int]:
             raise ConfigError(f"{where}: expected whole numbers, got {v!r}")
         if v < minimum:
             raise ConfigError(f"{where}: {v} is below the minimum of {minimum}")
+        if v in out:
+            raise ConfigError(f"{where}: {v} is listed twice")
         out.append(v)
     return out
+
+
+def _check_label(where: str, label) -> None:
+    # labels name the run files (network__rows__seedN__estimator.json)
+    if not isinstance(label, str) or not _LABEL.fullmatch(label) or "__" in label:
+        raise ConfigError(
+            f"{where}: label {label!r} cannot name a run file; use letters, digits, '.', '-' and single '_' "
+            "(set 'label')"
+        )
 
 
 @dataclass(frozen=True)
@@ -138,16 +147,19 @@ def _parse_network(where: str, item) -> NetworkSpec:
         raise ConfigError(f"{where}: 'network' must name a shipped network or a BIF file")
     if src not in CATALOG and not os.path.exists(src):
         raise ConfigError(
-            f"{where}: unknown network '{src}'{_near(src, CATALOG)}; shipped networks are: "
+            f"{where}: unknown network '{src}'{did_you_mean(src, CATALOG)}; shipped networks are: "
             f"{', '.join(CATALOG)} (or give the path of a BIF file)"
         )
     hidden = item.get("hidden", [])
     if not isinstance(hidden, list) or not all(isinstance(h, str) for h in hidden):
         raise ConfigError(f"{where}.hidden: expected a list of variable names")
     label = item.get("label") or (src if src in CATALOG else os.path.splitext(os.path.basename(src))[0])
+    if isinstance(label, (int, float)) and not isinstance(label, bool):
+        label = str(label)
     if hidden and "label" not in item:
         label = f"{label}-hidden"
-    return NetworkSpec(src, str(label), tuple(hidden))
+    _check_label(where, label)
+    return NetworkSpec(src, label, tuple(hidden))
 
 
 def _parse_estimator(where: str, item) -> EstimatorSpec:
@@ -161,13 +173,14 @@ def _parse_estimator(where: str, item) -> EstimatorSpec:
     else:
         raise ConfigError(f"{where}: expected an estimator name or a one-key mapping name: {{settings}}")
     if kind not in ESTIMATORS:
-        raise ConfigError(f"{where}: unknown estimator '{kind}'{_near(kind, ESTIMATORS)}; estimators are: {', '.join(ESTIMATORS)}")
+        raise ConfigError(f"{where}: unknown estimator '{kind}'{did_you_mean(kind, ESTIMATORS)}; estimators are: {', '.join(ESTIMATORS)}")
     if not isinstance(settings, Mapping):
         raise ConfigError(f"{where}.{kind}: settings must be a mapping, got {_type_name(settings)}")
     settings = dict(settings)
     label = settings.pop("label", kind)
     if not isinstance(label, str) or not label:
         raise ConfigError(f"{where}.{kind}.label: expected text")
+    _check_label(f"{where}.{kind}", label)
     check_settings(f"{where}.{kind}", kind, settings)
     return EstimatorSpec(kind, label, settings)
 
@@ -223,7 +236,7 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
     kinds = ["null" if k is None else k for k in kinds]
     for k in kinds:
         if k not in QUERY_KINDS:
-            raise ConfigError(f"queries.kinds: unknown query kind '{k}'{_near(k, QUERY_KINDS)}; kinds are: {', '.join(QUERY_KINDS)}")
+            raise ConfigError(f"queries.kinds: unknown query kind '{k}'{did_you_mean(k, QUERY_KINDS)}; kinds are: {', '.join(QUERY_KINDS)}")
     qseed = q.get("seed", 0)
     if isinstance(qseed, bool) or not isinstance(qseed, int):
         raise ConfigError(f"queries.seed: expected a whole number, got {qseed!r}")
@@ -251,16 +264,16 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
         raise ConfigError("metrics: expected a non-empty list")
     for m in metrics:
         if m not in METRIC_NAMES:
-            raise ConfigError(f"metrics: unknown metric '{m}'{_near(m, METRIC_NAMES)}; metrics are: {', '.join(METRIC_NAMES)}")
+            raise ConfigError(f"metrics: unknown metric '{m}'{did_you_mean(m, METRIC_NAMES)}; metrics are: {', '.join(METRIC_NAMES)}")
     executor = doc.get("executor", "local")
     if executor not in EXECUTORS:
-        raise ConfigError(f"executor: unknown executor '{executor}'{_near(executor, EXECUTORS)}; executors are: local, ray")
+        raise ConfigError(f"executor: unknown executor '{executor}'{did_you_mean(executor, EXECUTORS)}; executors are: local, ray")
     workers = doc.get("workers", 1)
     if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
         raise ConfigError(f"workers: expected a whole number of at least 1, got {workers!r}")
     boot = doc.get("bootstrap", 1000)
-    if isinstance(boot, bool) or not isinstance(boot, int) or boot < 0:
-        raise ConfigError(f"bootstrap: expected a whole number, got {boot!r}")
+    if isinstance(boot, bool) or not isinstance(boot, int) or not (boot == 0 or boot >= MIN_BOOTSTRAP):
+        raise ConfigError(f"bootstrap: expected 0 (no interval) or a whole number of at least {MIN_BOOTSTRAP}, got {boot!r}")
     cfg = ExperimentConfig(
         name=str(name), output=output, networks=networks, rows=rows, seeds=seeds, estimators=estimators,
         query_count=count, query_kinds=tuple(kinds), query_seed=qseed, experiment_targets=tuple(targets),
@@ -279,15 +292,27 @@ def load_config(path: str | os.PathLike) -> ExperimentConfig:
     Raises
     ------
     ConfigError
-        Missing file, YAML syntax error (with line), or any problem
+        Missing or unreadable file, text that is not UTF-8, YAML syntax
+        error (with line), or any problem
         :func:`parse_config` reports.
     """
     source = os.fspath(path)
     try:
-        with open(source, encoding="utf-8") as fh:
-            doc = yaml.safe_load(fh)
+        with open(source, "rb") as fh:
+            data = fh.read()
     except FileNotFoundError:
         raise ConfigError(f"{source}: no such file") from None
+    except IsADirectoryError:
+        raise ConfigError(f"{source}: is a folder, not a config file") from None
+    except OSError as exc:
+        raise ConfigError(f"{source}: cannot read the file ({exc.strerror or exc})") from None
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        raise ConfigError(f"{source}, line {line}: not UTF-8 text (byte 0x{data[exc.start]:02x})") from None
+    try:
+        doc = yaml.safe_load(text)
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         where = f", line {mark.line + 1}" if mark is not None else ""

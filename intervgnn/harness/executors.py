@@ -10,7 +10,7 @@ from collections.abc import Callable, Iterable
 from .._io import atomic_open, make_folder
 from ..errors import ConfigError, IntervgnnError, RunError, WriteError
 from .config import ExperimentConfig
-from .runs import FORMAT, RunSpec, execute_run, plan_runs, run_digest
+from .runs import FORMAT, RunSpec, check_networks, execute_run, plan_runs, run_digest
 
 __all__ = ["RunStore", "run_grid"]
 
@@ -167,10 +167,15 @@ def run_grid(
         Some runs failed; every other run was still done and saved, so a
         ``resume=True`` call does only the failed ones.
     """
-    workers = workers or cfg.workers
+    workers = cfg.workers if workers is None else workers
     executor = executor or cfg.executor
     if executor not in ("local", "ray"):
         raise ConfigError(f"unknown executor '{executor}'; executors are: local, ray")
+    if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
+        raise ConfigError(f"workers: expected a whole number of at least 1, got {workers!r}")
+    if address and executor != "ray":
+        raise ConfigError("an address is for the ray executor (--executor ray); the local executor takes none")
+    check_networks(cfg)  # before anything is deleted or started
     specs = plan_runs(cfg)
     store = RunStore(cfg.output)
     store.prepare(resume)

@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-import difflib
 import inspect
 
-from ..errors import ConfigError
+from ..errors import ConfigError, IntervgnnError, did_you_mean
 
 __all__ = ["ESTIMATORS", "make_estimator", "check_settings"]
 
@@ -78,18 +77,18 @@ _RESERVED = {"seed", "progress", "device"}
 
 
 def check_settings(where: str, kind: str, settings: dict) -> None:
-    """Raise ConfigError for an unknown setting (with the nearest) or a value of the wrong type."""
+    """Raise ConfigError for an unknown setting (with the nearest), a value of the wrong type, or one the estimator refuses."""
     cls = _classes()[kind]
     params = {k: p for k, p in inspect.signature(cls.__init__).parameters.items() if k != "self"}
     if kind == "neural_ablation":
         params.pop("cut", None)
     for key, value in settings.items():
+        if not isinstance(key, str):
+            raise ConfigError(f"{where}: setting names must be text, got {key!r}")
         if key in _RESERVED:
             raise ConfigError(f"{where}: '{key}' is set by the harness (seeds come from 'seeds')")
         if key not in params:
-            near = difflib.get_close_matches(key, list(params), n=1)
-            hint = f" (did you mean '{near[0]}'?)" if near else ""
-            raise ConfigError(f"{where}: unknown setting '{key}'{hint}; settings are: {', '.join(params)}")
+            raise ConfigError(f"{where}: unknown setting '{key}'{did_you_mean(key, params)}; settings are: {', '.join(params)}")
         default = params[key].default
         if default is inspect.Parameter.empty or default is None or value is None:
             continue
@@ -101,6 +100,11 @@ def check_settings(where: str, kind: str, settings: dict) -> None:
             ok = True
         if not ok:
             raise ConfigError(f"{where}.{key}: expected {expected.__name__}, got {value!r}")
+    # the values themselves (ranges, names) are checked by the estimator, as fit would
+    try:
+        make_estimator(kind, settings, seed=0)._check_settings()
+    except IntervgnnError as exc:
+        raise ConfigError(f"{where}: {exc}") from None
 
 
 def make_estimator(kind: str, settings: dict, seed: int):

@@ -12,13 +12,13 @@ from dataclasses import asdict, dataclass
 import numpy as np
 
 from ..bn import load_network
-from ..errors import IntervgnnError, UnsupportedQuery, ZeroEvidenceError
+from ..errors import ConfigError, UnsupportedQuery, ZeroEvidenceError, did_you_mean
 from ..eval.queries import EvalQuery, make_query_set
 from ..table import Table
 from .config import EstimatorSpec, ExperimentConfig, NetworkSpec
 from .registry import make_estimator
 
-__all__ = ["RunSpec", "plan_runs", "prepared_network", "training_rows", "execute_run", "FORMAT"]
+__all__ = ["RunSpec", "plan_runs", "check_networks", "prepared_network", "training_rows", "execute_run", "FORMAT"]
 
 #: version of the per-run result files
 FORMAT = "intervgnn-run-1"
@@ -94,9 +94,11 @@ def prepared_network(spec: NetworkSpec, count: int, kinds: tuple[str, ...], qsee
     """Load a network once per process and draw its query set."""
     net = load_network(spec.source)
     hidden = set(spec.hidden)
-    for h in hidden:
+    for h in spec.hidden:
         if h not in net.graph:
-            raise IntervgnnError(f"network '{spec.label}': hidden variable '{h}' is not in the network")
+            raise ConfigError(
+                f"network '{spec.label}': hidden variable '{h}' is not in the network{did_you_mean(h, net.variables)}"
+            )
     observed = tuple(v for v in net.variables if v not in hidden)
     if hidden:
         graph = net.graph.project_out(sorted(hidden))
@@ -110,16 +112,44 @@ def prepared_network(spec: NetworkSpec, count: int, kinds: tuple[str, ...], qsee
             dataclasses.replace(q, identifiable=identify(graph, list(q.target), list(q.do_dict), list(q.given_dict)).identifiable)
             for q in queries
         )
-    targets = tuple(t for t in ex_targets if t in net.graph)
-    missing = [t for t in ex_targets if t not in net.graph]
-    if missing and not targets:
-        raise IntervgnnError(f"network '{spec.label}': experiment target '{missing[0]}' is not in the network")
+    # the config's targets apply to every network that observes them (check_networks
+    # refuses a target that no network observes)
+    targets = tuple(t for t in ex_targets if t in observed)
+    if ex_targets and not targets:
+        raise ConfigError(
+            f"network '{spec.label}': none of the experiment targets ({', '.join(ex_targets)}) is an observed "
+            "variable of this network"
+        )
     if ex_count and not ex_targets:
         rng = np.random.default_rng(qseed)
         cands = [v for v in observed if net.graph.descendants(v)]
         pick = rng.choice(len(cands), size=min(ex_count, len(cands)), replace=False)
         targets = tuple(cands[i] for i in sorted(pick))
     return Prepared(net, observed, graph, queries, targets)
+
+
+def check_networks(cfg: ExperimentConfig) -> None:
+    """Config problems that only the networks reveal, raised before any run starts.
+
+    Raises
+    ------
+    ConfigError
+        A hidden variable the network lacks, an experiment target that no
+        network observes, or a network observing none of the targets.
+    BIFParseError
+        A network file that cannot be read.
+    """
+    observed: list[str] = []
+    for net in cfg.networks:
+        prep = prepared_network(
+            net, cfg.query_count, cfg.query_kinds, cfg.query_seed, cfg.experiment_targets, cfg.experiment_count
+        )
+        observed += [v for v in prep.observed if v not in observed]
+    for t in cfg.experiment_targets:
+        if t not in observed:
+            raise ConfigError(
+                f"experiments.targets: '{t}' is not an observed variable of any network{did_you_mean(t, observed)}"
+            )
 
 
 def training_rows(prep: Prepared, rows: int, seed: int, rows_per_target: int) -> Table:
