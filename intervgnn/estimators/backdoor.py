@@ -36,12 +36,18 @@ class BackdoorEstimator(Estimator):
         P(y \mid do(x)) = \sum_z P(y \mid x, z)\, P(z),
         \qquad Z = \mathrm{pa}(X)
 
-    The parents of the treatment block every back-door path in a causal DAG
-    without hidden variables, so they are a valid adjustment set. The
-    outcome model :math:`P(y \mid x, z)` is a scikit-learn classifier on
-    one-hot features of x and z plus their x-by-z interactions, trained on
-    the rows where Y was not intervened; the sum over z averages its
-    predictions over the observational rows.
+    The parents of the treatment block every back-door path when no hidden
+    common cause touches the treatment, so they are a valid adjustment set
+    (Pearl 2009, Sec. 3.3). When the diagram has a bidirected edge at the
+    treatment, a set satisfying the back-door criterion is searched for
+    among the observed variables; if none exists the query raises
+    :class:`~intervgnn.errors.UnsupportedQuery`. The outcome model
+    :math:`P(y \mid x, z)` is a scikit-learn classifier on one-hot features
+    of x and z plus their x-by-z interactions; it and the weights
+    :math:`P(z)` are learned from the rows where no variable other than the
+    treatment was set by experiment (observational rows and experiments on
+    the treatment itself), the rows whose P(y | x, z) and P(z) are those of
+    the observational regime.
 
     Only single-treatment, single-target queries without ``given=`` are
     answered; others raise :class:`~intervgnn.errors.UnsupportedQuery`.
@@ -103,14 +109,38 @@ class BackdoorEstimator(Estimator):
             blocks.append((tx[:, :, None] * zz[:, None, :]).reshape(len(x_codes), -1))
         return np.concatenate(blocks, axis=1)
 
+    def _adjustment_set(self, x: str, y: str) -> list[str]:
+        # without a hidden common cause of X, pa(X) blocks every back-door path;
+        # with one (a bidirected edge at X) a valid set must be searched for
+        if not self.graph_.spouses(x):
+            return list(self.graph_.parents(x))
+        from ..identify.api import find_backdoor_set
+
+        found = find_backdoor_set(self.graph_, x, [y])
+        if found is None:
+            raise UnsupportedQuery(
+                f"no back-door adjustment set exists for {x} -> {y} on this diagram (a hidden common cause "
+                f"of {x} cannot be adjusted for)"
+            )
+        return list(found)
+
+    def _usable_rows(self, x: str) -> np.ndarray:
+        # rows where nothing but X was set: there P(y | x, z) and P(z) are those of the
+        # observational regime (Z holds no descendant of X); an experiment on any other
+        # variable changes them
+        t = self.table_
+        others = np.delete(t.intervened, t.variables.index(x), axis=1)
+        use = ~others.any(axis=1)
+        if not use.any():
+            raise UnsupportedQuery(f"back-door adjustment for do({x}) needs rows where no variable other than {x} was set")
+        return t.codes[use]
+
     def _outcome_model(self, x: str, y: str):
         key = (x, y)
         if key not in self.outcome_models_:
-            t = self.table_
-            col = {v: j for j, v in enumerate(t.variables)}
-            zs = list(self.graph_.parents(x))
-            use = ~t.intervened[:, col[y]]
-            codes = t.codes[use]
+            col = {v: j for j, v in enumerate(self.table_.variables)}
+            zs = self._adjustment_set(x, y)
+            codes = self._usable_rows(x)
             feats = self._features(codes[:, col[x]], codes[:, [col[z] for z in zs]], x, zs)
             target = codes[:, col[y]]
             if np.unique(target).size == 1:
@@ -118,14 +148,11 @@ class BackdoorEstimator(Estimator):
             else:
                 clf = self._new_classifier().fit(feats, target)
                 model = ("classifier", clf)
-            obs = t.codes[~t.intervened.any(axis=1)]
-            if obs.shape[0] == 0:
-                obs = t.codes
-            zc = obs[:, [col[z] for z in zs]]
+            zc = codes[:, [col[z] for z in zs]]
             if zs:
                 uniq, counts = np.unique(zc, axis=0, return_counts=True)
             else:
-                uniq, counts = np.zeros((1, 0), dtype=np.int64), np.array([obs.shape[0]])
+                uniq, counts = np.zeros((1, 0), dtype=np.int64), np.array([codes.shape[0]])
             self.outcome_models_[key] = (model, zs, uniq, counts / counts.sum())
         return self.outcome_models_[key]
 
@@ -136,13 +163,11 @@ class BackdoorEstimator(Estimator):
             )
         (y,), ((x, xs),) = q.targets, q.do
         k = len(self.states_[y])
-        col = {v: j for j, v in enumerate(self.table_.variables)}
         if y not in self.graph_.descendants(x):
-            # Y is not affected by X: P(y | do(x)) = P(y), read off the rows where Y was not set
-            t = self.table_
-            vals = t.codes[~t.intervened[:, col[y]], col[y]]
+            # Y is not affected by X: P(y | do(x)) = P(y)
+            vals = self._usable_rows(x)[:, self.table_.variables.index(y)]
             counts = np.bincount(vals, minlength=k).astype(np.float64)
-            return counts / max(counts.sum(), 1.0)
+            return counts / counts.sum()
         model, zs, uniq, weights = self._outcome_model(x, y)
         if model[0] == "constant":
             out = np.zeros(k)
