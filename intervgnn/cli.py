@@ -180,8 +180,8 @@ def cmd_estimate(args) -> int:
 
 
 def cmd_run(args) -> int:
-    from .harness import load_config, run_experiment
-    from .harness.summary import markdown_tables, summarise
+    from .harness import load_config, load_records, run_grid, summarise, write_outputs
+    from .harness.summary import markdown_tables
 
     cfg = load_config(args.config)
     if args.output:
@@ -194,14 +194,13 @@ def cmd_run(args) -> int:
                 + ", ".join(str(r) for r in cfg.rows)
             )
         cfg = dataclasses.replace(cfg, rows=tuple(r for r in cfg.rows if r in args.rows))
-    paths = run_experiment(
+    specs = run_grid(
         cfg, workers=args.workers, executor=args.executor, address=args.address, resume=args.resume,
         progress=not args.quiet, log=print,
     )
-    from .harness.executors import load_records
-    from .harness.runs import plan_runs
-
-    _, summary = summarise(cfg, load_records(cfg, plan_runs(cfg)))
+    records = load_records(cfg, specs)
+    query_rows, summary = summarise(cfg, records)
+    paths = write_outputs(cfg, records, (query_rows, summary))
     metric = "tv" if "tv" in cfg.metrics else cfg.metrics[0]
     print()
     print(markdown_tables(cfg, summary, metric))

@@ -176,13 +176,17 @@ def markdown_tables(cfg: ExperimentConfig, summary: list[dict], metric: str = "t
     return "\n".join(out)
 
 
-def write_outputs(cfg: ExperimentConfig, records: list[dict]) -> dict[str, str]:
-    """Write queries.csv, summary.csv, summary.md, the plots and report.md / report.html; return their paths."""
+def write_outputs(cfg: ExperimentConfig, records: list[dict], summarised: tuple | None = None) -> dict[str, str]:
+    """Write queries.csv, summary.csv, summary.md, the plots and report.md / report.html; return their paths.
+
+    ``summarised`` is what :func:`summarise` returned for these records, if
+    the caller has it already.
+    """
     from .plots import confounded_bars, error_vs_rows
     from .report import write_report
 
     make_folder(cfg.output)
-    query_rows, summary = summarise(cfg, records)
+    query_rows, summary = summarised if summarised is not None else summarise(cfg, records)
     paths = {
         "queries": os.path.join(cfg.output, "queries.csv"),
         "summary": os.path.join(cfg.output, "summary.csv"),
