@@ -100,7 +100,9 @@ def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str 
         if address:
             ray.init(address=address, **kwargs)
         else:
-            ray.init(num_cpus=workers, **kwargs)
+            # Ray lowers its workers' priority (nice 15) by default; runs of a local
+            # instance get the same share of the machine as the local pool's
+            ray.init(num_cpus=workers, _system_config={"worker_niceness": 0}, **kwargs)
         started = True
     try:
         remote = ray.remote(num_cpus=1)(_ray_task)
