@@ -35,6 +35,7 @@ bench: $(VENV)/.test
 	$(PY) experiments/bench/layer_overhead.py
 	$(PY) experiments/bench/neural_accuracy.py --mixed --out experiments/results/neural_accuracy.json
 	$(PY) experiments/bench/hidden_accuracy.py --out experiments/results/hidden_accuracy.json
+	$(PY) experiments/bench/neural_large_rows.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info
