@@ -1,4 +1,4 @@
-"""Exact answers against pgmpy (the reference library), on every shipped network.
+"""Exact answers against pgmpy (the reference library), on every shipped network and on random networks.
 
 Reference routes, all pgmpy:
 - observational marginals and joints: ``VariableElimination`` on the model
@@ -23,7 +23,7 @@ import pytest
 
 from intervgnn import ZeroEvidenceError
 
-from .conftest import SHIPPED, our_network, pgmpy_model
+from .conftest import RANDOM, SHIPPED, our_network, pgmpy_model
 
 TOL = 1e-9
 
@@ -81,7 +81,7 @@ def test_observational_marginals(name):
             np.testing.assert_allclose(net.query(v).probs, ref, atol=TOL, rtol=0)
 
 
-@pytest.mark.parametrize("name", SHIPPED)
+@pytest.mark.parametrize("name", SHIPPED + RANDOM)
 def test_do_queries_every_value(name):
     from pgmpy.inference import CausalInference
 
@@ -97,7 +97,7 @@ def test_do_queries_every_value(name):
             np.testing.assert_allclose(net.query(y, do={x: state}).probs, ref, atol=TOL, rtol=0)
 
 
-@pytest.mark.parametrize("name", SHIPPED)
+@pytest.mark.parametrize("name", SHIPPED + RANDOM)
 def test_conditional_do_queries(name):
     net, model = our_network(name), pgmpy_model(name)
     rng = np.random.default_rng(2)
@@ -147,7 +147,7 @@ def test_joint_targets(name):
         np.testing.assert_allclose(net.query([y, w]).probs, ref_obs, atol=TOL, rtol=0)
 
 
-@pytest.mark.parametrize("name", SHIPPED)
+@pytest.mark.parametrize("name", SHIPPED + RANDOM)
 def test_joint_interventions(name):
     net, model = our_network(name), pgmpy_model(name)
     rng = np.random.default_rng(6)

@@ -52,7 +52,7 @@ def test_a_valid_config():
         ({"output": 3}, r"c.yaml: 'output' must be a folder path, got a whole number"),
         ({"networks": "cancer"}, r"c.yaml: 'networks' must be a list, got text"),
         ({"networks": [3]}, r"networks\[0\]: expected a network name or a mapping, got a whole number"),
-        ({"networks": [{"hidden": ["Smoker"]}]}, r"networks\[0\]: 'network' must name a shipped network or a BIF file"),
+        ({"networks": [{"hidden": ["Smoker"]}]}, r"networks\[0\]: 'network' must name a shipped network, a random network or a BIF file"),
         ({"networks": [{"network": "cancer", "hiden": ["Smoker"]}]}, r"networks\[0\]: unknown key 'hiden' \(did you mean 'hidden'\?\)"),
         ({"networks": [{"network": "cancer", "hidden": "Smoker"}]}, r"networks\[0\].hidden: expected a list of variable names"),
         ({"networks": ["cancer", "cancer"]}, r"networks: label 'cancer' is used twice"),

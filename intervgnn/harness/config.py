@@ -4,8 +4,9 @@ Shape of a config::
 
     name: quickstart                 # optional label
     output: runs/quickstart          # folder for all results
-    networks:                        # catalog names, BIF paths, or mappings
+    networks:                        # catalog names, random specs, BIF paths, or mappings
       - sachs
+      - random:nodes=30,seed=4       # a seeded random network (see intervgnn.bn.random_network)
       - {network: alarm, hidden: [LVFAILURE]}
     rows: [1000, 10000]              # observational rows per run
     experiments:                     # optional experimental rows
@@ -17,7 +18,7 @@ Shape of a config::
       - naive
       - plugin
       - backdoor: {classifier: logistic}
-      - neural: {epochs: 200}
+      - neural: {steps: 200}
       - neural_ablation
     metrics: [tv, kl, jsd, hellinger, effect]
     executor: local                  # or ray
@@ -136,6 +137,8 @@ class ExperimentConfig:
 
 def _parse_network(where: str, item) -> NetworkSpec:
     from ..bn.catalog import CATALOG
+    from ..bn.synthetic import is_random_spec, parse_random_spec
+    from ..errors import UnknownNetworkError
 
     if isinstance(item, str):
         item = {"network": item}
@@ -144,16 +147,23 @@ def _parse_network(where: str, item) -> NetworkSpec:
     _check_keys(where, item, NETWORK_KEYS)
     src = item.get("network")
     if not isinstance(src, str) or not src:
-        raise ConfigError(f"{where}: 'network' must name a shipped network or a BIF file")
-    if src not in CATALOG and not os.path.exists(src):
+        raise ConfigError(f"{where}: 'network' must name a shipped network, a random network or a BIF file")
+    random_label = None
+    if is_random_spec(src):
+        try:
+            spec = parse_random_spec(src)
+        except UnknownNetworkError as exc:
+            raise ConfigError(f"{where}: {exc}") from None
+        src, random_label = spec.text, spec.label
+    elif src not in CATALOG and not os.path.exists(src):
         raise ConfigError(
             f"{where}: unknown network '{src}'{did_you_mean(src, CATALOG)}; shipped networks are: "
-            f"{', '.join(CATALOG)} (or give the path of a BIF file)"
+            f"{', '.join(CATALOG)} (or a random network such as random:nodes=30,seed=4, or the path of a BIF file)"
         )
     hidden = item.get("hidden", [])
     if not isinstance(hidden, list) or not all(isinstance(h, str) for h in hidden):
         raise ConfigError(f"{where}.hidden: expected a list of variable names")
-    label = item.get("label") or (src if src in CATALOG else os.path.splitext(os.path.basename(src))[0])
+    label = item.get("label") or random_label or (src if src in CATALOG else os.path.splitext(os.path.basename(src))[0])
     if isinstance(label, (int, float)) and not isinstance(label, bool):
         label = str(label)
     if hidden and "label" not in item:

@@ -71,7 +71,11 @@ def run_digest(spec: RunSpec, cfg: ExperimentConfig) -> str:
 @functools.lru_cache(maxsize=None)
 def _network_fingerprint(source: str) -> str:
     from ..bn.catalog import CATALOG, catalog_path
+    from ..bn.synthetic import is_random_spec, parse_random_spec
 
+    if is_random_spec(source):  # a random network is fixed by its settings and the generator's version
+        text = json.dumps(parse_random_spec(source).fingerprint(), sort_keys=True)
+        return hashlib.sha256(text.encode()).hexdigest()[:16]
     path = catalog_path(source) if source in CATALOG else source
     with open(path, "rb") as fh:
         return hashlib.sha256(fh.read()).hexdigest()[:16]
