@@ -3,14 +3,16 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass, field
 from typing import NamedTuple
 
+import numpy as np
 import torch
 from torch import Tensor
 
 from ..nn import InterventionalConv
 
-__all__ = ["InterventionalVGAE", "Latents", "elbo_terms"]
+__all__ = ["InterventionalVGAE", "Latents", "FamilyBatch", "elbo_terms", "family_edges", "family_elbo"]
 
 _LOGSTD_MIN, _LOGSTD_MAX = -6.0, 3.0
 
@@ -29,6 +31,91 @@ class Latents(NamedTuple):
     logstd: Tensor
     group_logprior: Tensor | None = None
     member: Tensor | None = None
+
+
+def family_edges(parents, cards, node: np.ndarray, cfg: np.ndarray, first: int) -> np.ndarray:
+    """Parent -> child edges ``[2, E]`` of a batch of small family graphs (stars).
+
+    Item ``j`` is node ``node[j]`` in parent configuration ``cfg[j]`` (mixed
+    radix over ``parents[node[j]]``, first parent most significant). Sources
+    are *value nodes*, one per (variable, state) numbered as in
+    :attr:`InterventionalVGAE.offsets`; the target of item ``j`` is node
+    ``first + j``. Each item receives one message per parent, from the value
+    node of that parent's state, exactly as node ``node[j]`` does in a row.
+    """
+    offsets = np.concatenate([[0], np.cumsum(cards)[:-1]]).astype(np.int64)
+    src, dst = [], []
+    node = np.asarray(node, dtype=np.int64)
+    cfg = np.asarray(cfg, dtype=np.int64)
+    for v in np.unique(node):
+        pa = list(parents[int(v)])
+        if not pa:
+            continue
+        items = np.flatnonzero(node == v)
+        rest = cfg[items].copy()
+        for p in reversed(pa):  # least significant parent last in the radix
+            rest, s = np.divmod(rest, cards[p])
+            src.append(offsets[p] + s)
+            dst.append(first + items)
+    if not src:
+        return np.zeros((2, 0), dtype=np.int64)
+    return np.stack([np.concatenate(src), np.concatenate(dst)])
+
+
+@dataclass
+class FamilyBatch:
+    """Cells of :class:`~intervgnn.models.stats.FamilyCells` as tensors for one full-batch pass.
+
+    Every cell is a small family graph: a star from the value nodes of its
+    parents' states into the cell. The encoder runs once per cell; the
+    decoder once per cell outside confounded components and once per state
+    of the component's latent for member cells (``dec_*``).
+    """
+
+    node: Tensor  # [C] node of each cell
+    state: Tensor  # [C] own state of each cell
+    enc_edges: Tensor  # [2, E] value nodes -> T + cell
+    dec_cell: Tensor  # [D] cell decoded by each decoder item
+    dec_u: Tensor  # [D] latent state heard by the item (-1: none)
+    dec_edges: Tensor  # [2, E'] value nodes -> T + decoder item
+    free_item: Tensor  # [C] decoder item of a cell outside every component (-1 for members)
+    member_item: Tensor  # [C, S] decoder items of a member cell per latent state (-1 otherwise)
+    group_cell: list[Tensor] = field(default_factory=list)  # per component: [R, m] cell ids (-1 intervened)
+    group_id: list[int] = field(default_factory=list)
+    is_member: Tensor | None = None  # [C] bool
+    free_cells: Tensor | None = None  # indices of the cells outside every component
+
+    @classmethod
+    def from_cells(cls, model: InterventionalVGAE, cells) -> FamilyBatch:
+        """Lay out ``cells`` (:class:`~intervgnn.models.stats.FamilyCells`) for ``model``."""
+        t = model.num_values
+        node, cfg, state = cells.node, cells.cfg, cells.state
+        n_cells = int(node.size)
+        enc = family_edges(cells.parents, cells.cards, node, cfg, t)
+        member_group = model.node_group.cpu().numpy()
+        is_member = member_group[node] >= 0 if n_cells else np.zeros(0, dtype=bool)
+        s = model.u_states if model.num_groups else 1
+        free = np.flatnonzero(~is_member)
+        members = np.flatnonzero(is_member)
+        dec_cell = np.concatenate([free, np.repeat(members, s)])
+        dec_u = np.concatenate([np.full(free.size, -1), np.tile(np.arange(s), members.size)])
+        free_item = np.full(n_cells, -1, dtype=np.int64)
+        free_item[free] = np.arange(free.size)
+        member_item = np.full((n_cells, s), -1, dtype=np.int64)
+        member_item[members] = free.size + np.arange(members.size * s).reshape(members.size, s)
+        dec = family_edges(cells.parents, cells.cards, node[dec_cell], cfg[dec_cell], t)
+        dev = model.offsets.device
+        as_t = lambda a: torch.as_tensor(np.ascontiguousarray(a), dtype=torch.long, device=dev)  # noqa: E731
+        index = {g: i for i, g in enumerate(model.groups)}
+        return cls(
+            node=as_t(node), state=as_t(state), enc_edges=as_t(enc),
+            dec_cell=as_t(dec_cell), dec_u=as_t(dec_u), dec_edges=as_t(dec),
+            free_item=as_t(free_item), member_item=as_t(member_item),
+            group_cell=[as_t(g.cell) for g in cells.groups],
+            group_id=[index[tuple(g.members)] for g in cells.groups],
+            is_member=torch.as_tensor(is_member, device=dev),
+            free_cells=as_t(free),
+        )
 
 
 class InterventionalVGAE(torch.nn.Module):
@@ -125,6 +212,10 @@ class InterventionalVGAE(torch.nn.Module):
             idx[v, :c] = offsets[v] + torch.arange(c)
             valid[v, :c] = True
         self.register_buffer("state_index", idx, persistent=False)
+        self.num_values = total
+        self.register_buffer(
+            "value_node", torch.repeat_interleave(torch.arange(len(cards)), torch.tensor(cards)), persistent=False
+        )
         self.register_buffer("valid", valid, persistent=False)
         # confounded groups: membership [G, N] and each node's group (-1: none)
         self.groups = [tuple(int(i) for i in g) for g in groups]
@@ -156,6 +247,15 @@ class InterventionalVGAE(torch.nn.Module):
         torch.nn.init.normal_(self.mech_emb.weight, std=0.5)
         self.encoder.reset_parameters()
         self.z_proj.reset_parameters()
+        # start at the collapsed posterior: q(z | .) = N(0, I) (the encoder's last layer is zero) and a
+        # decoder that ignores z (zero projection). With discrete nodes a decoder that represents
+        # p(x_i | x_pa(i)) exactly makes this the ELBO's optimum, and starting there keeps the
+        # reparameterisation noise from swamping full-batch training.
+        last = self.encoder.update_mlp.lins[-1]
+        torch.nn.init.zeros_(last.weight)
+        if last.bias is not None:
+            torch.nn.init.zeros_(last.bias)
+        torch.nn.init.zeros_(self.z_proj.weight)
         self.decoder.reset_parameters()
         torch.nn.init.normal_(self.out_emb.weight, std=0.1)
         torch.nn.init.zeros_(self.out_bias.weight)
@@ -234,6 +334,116 @@ class InterventionalVGAE(torch.nn.Module):
         probs = torch.softmax(self.u_prior.detach().cpu().double(), dim=-1)
         draws = torch.multinomial(probs, batch, replacement=True, generator=generator)  # [G, batch]
         return draws.t().contiguous().to(self.state_emb.weight.device)
+
+
+    # ------------------------------------------------------ family graphs
+    def values(self) -> Tensor:
+        """Embedding of every (variable, state) plus its mechanism, ``[T, dim]`` (the value nodes)."""
+        return self.state_emb.weight + self.mech_emb(self.mechanism[self.value_node])
+
+    def encode_families(self, node: Tensor, state: Tensor, edges: Tensor, values: Tensor | None = None):
+        """Posterior ``(mu, logstd)`` of z for each family item (node ``node[j]`` in state ``state[j]``).
+
+        ``edges`` are built by :func:`family_edges` (value nodes -> items).
+        The same layer and the same inputs as :meth:`encode` on a row: item
+        ``j`` hears its parents' value embeddings and knows its own.
+        """
+        values = self.values() if values is None else values
+        t = values.size(0)
+        own = values[self.offsets[node] + state]
+        h = self.encoder(torch.cat([values, own]), edges)[t:]
+        mu, logstd = h.split([self.z_dim, self.z_dim], dim=-1)
+        return mu, logstd.clamp(_LOGSTD_MIN, _LOGSTD_MAX)
+
+    def decode_families(self, node: Tensor, z: Tensor, edges: Tensor, u: Tensor | None = None, values: Tensor | None = None) -> Tensor:
+        """Logits ``[D, K_max]`` of p(x | parents, z[, u]) for each family item; padded states are ``-inf``.
+
+        ``u [D]`` is the state of the node's component latent (-1: none, as
+        for an intervened member). Item ``j`` computes exactly what
+        :meth:`decode` computes for node ``node[j]`` of a row with the same
+        parent values, z and latent state.
+        """
+        values = self.values() if values is None else values
+        t = values.size(0)
+        dst = self.mech_emb(self.mechanism[node]) + self.z_proj(z)
+        if self.num_groups and u is not None:
+            g = self.node_group[node]
+            hears = (g >= 0) & (u >= 0)
+            flat = self.u_emb.reshape(self.num_groups * self.u_states, -1)
+            contrib = torch.nn.functional.embedding(g.clamp_min(0) * self.u_states + u.clamp_min(0), flat)
+            dst = dst + contrib * hears.unsqueeze(-1).to(dst.dtype)
+        src = torch.cat([values, values.new_zeros(dst.size(0), values.size(1))])
+        dst = torch.cat([dst.new_zeros(t, dst.size(1)), dst])
+        h = self.decoder((src, dst), edges)[t:]
+        index = self.state_index[node]
+        logits = (h @ self.out_emb.weight.t() + self.out_bias.weight.t()).gather(1, index)
+        return logits.masked_fill(~self.valid[node], float("-inf"))
+
+    def family_terms(
+        self, batch: FamilyBatch, generator: torch.Generator | None = None, prior_mean: bool = False
+    ) -> tuple[Tensor, Tensor, Tensor]:
+        """Per-item log-likelihoods and per-cell KL for a :class:`FamilyBatch`.
+
+        Returns ``(logp [D], kl [C], mu)``: the log-probability of each
+        decoder item's own state and the KL of each cell's q(z) from the
+        prior. z is sampled (reparameterised, from ``generator`` when given)
+        in training mode, the mean in eval mode, as in :meth:`encode`; with
+        ``prior_mean`` it is the prior's mean, zero, so that the
+        log-likelihoods are the decoder's predictions from the parents alone.
+        """
+        values = self.values()
+        mu, logstd = self.encode_families(batch.node, batch.state, batch.enc_edges, values)
+        if prior_mean:
+            z = torch.zeros_like(mu)
+        elif self.training:
+            noise = torch.randn(mu.shape, generator=generator, device=mu.device, dtype=mu.dtype)
+            z = mu + noise * logstd.exp()
+        else:
+            z = mu
+        cell = batch.dec_cell
+        logits = self.decode_families(batch.node[cell], z[cell], batch.dec_edges, batch.dec_u, values)
+        logp = torch.log_softmax(logits, dim=-1).gather(1, batch.state[cell].unsqueeze(-1)).squeeze(-1)
+        return logp, _kl(mu, logstd), mu
+
+
+def family_elbo(
+    model: InterventionalVGAE,
+    batch: FamilyBatch,
+    weight: Tensor,
+    group_weight: Sequence[Tensor] = (),
+    generator: torch.Generator | None = None,
+    prior_mean: bool = False,
+) -> Tensor:
+    r"""The intervention-aware ELBO summed over rows, from their cells (a scalar).
+
+    .. math::
+        \sum_c n_c \big(\log p(x_c \mid \mathrm{pa}_c, z_c) - \mathrm{KL}_c\big)
+        + \sum_{\text{member cells}} -n_c \mathrm{KL}_c
+        + \sum_g \sum_r n_{gr} \log \sum_k \pi_{gk} \prod_{i \in g, \text{not set}} p(x_i \mid \cdot, u_g = k)
+
+    ``weight [C]`` holds the cells' row counts, ``group_weight`` per
+    component the counts of its configurations; ``generator`` draws the
+    reparameterisation noise in training mode. With ``prior_mean`` z is set
+    to zero and the KL left out: the log-likelihood of the rows under the
+    decoder's predictions from the parents (and latents) alone, which no
+    encoding of a row's own value into z can inflate. On the same rows this equals
+    the sum of :func:`elbo_terms` over the rows (in eval mode exactly, up to
+    float rounding; in training mode in expectation over the noise).
+    """
+    logp, kl, _ = model.family_terms(batch, generator, prior_mean)
+    total = logp.new_zeros(()) if prior_mean else (weight * (-kl)).sum()
+    total = total + (weight[batch.free_cells] * logp[batch.free_item[batch.free_cells]]).sum()
+    if batch.group_cell:
+        logprior = torch.log_softmax(model.u_prior, dim=-1)
+        s = model.u_states
+        per_cell = logp.new_zeros(batch.node.size(0), s)
+        members = batch.member_item[:, 0] >= 0
+        per_cell[members] = logp[batch.member_item[members]]
+        for cells, gid, w in zip(batch.group_cell, batch.group_id, group_weight):
+            took = (cells >= 0).to(per_cell.dtype).unsqueeze(-1)
+            joint = (per_cell[cells.clamp_min(0)] * took).sum(1) + logprior[gid]
+            total = total + (w * torch.logsumexp(joint, dim=-1)).sum()
+    return total
 
 
 def _kl(mu: Tensor, logstd: Tensor) -> Tensor:
