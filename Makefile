@@ -33,9 +33,12 @@ test: $(VENV)/.test
 bench: $(VENV)/.test
 	$(PY) experiments/bench/exact_vs_reference.py
 	$(PY) experiments/bench/layer_overhead.py
+	$(PY) experiments/bench/neural_speed.py
+	$(PY) experiments/bench/neural_parts.py
 	$(PY) experiments/bench/neural_accuracy.py --mixed --out experiments/results/neural_accuracy.json
 	$(PY) experiments/bench/hidden_accuracy.py --out experiments/results/hidden_accuracy.json
-	$(PY) experiments/bench/neural_large_rows.py
+	$(VENV)/bin/intervgnn run configs/random.yaml --output experiments/results/random
+	$(PY) experiments/bench/neural_ratios.py experiments/results/random/summary.csv --goals random
 
 clean:
 	rm -rf $(VENV) build *.egg-info

@@ -53,7 +53,7 @@ def test_write_failure_is_a_clean_error(capsys, tmp_path):
     rc, _, err = run(capsys, "sample", "--network", "survey", "--rows", "5", "--out", str(blocker / "rows.csv"))
     assert rc == 2
     assert err.startswith("intervgnn: error: ") and "rows.csv: cannot write the file (NotADirectoryError" in err
-    rc, _, err = run(capsys, "fit", "--network", "cancer", "--rows", "300", "--epochs", "2", "--quiet",
+    rc, _, err = run(capsys, "fit", "--network", "cancer", "--rows", "300", "--steps", "2", "--quiet",
                      "--out", str(blocker / "model"))
     assert rc == 2 and "model: cannot create the folder (" in err
 
@@ -81,8 +81,11 @@ def test_errors_are_one_line(capsys, argv, message):
 
 def test_fit_then_estimate_from_the_saved_model(capsys, tmp_path):
     out = tmp_path / "model"
-    rc, text, _ = run(capsys, "fit", "--network", "cancer", "--rows", "3000", "--epochs", "5", "--quiet", "--out", str(out))
+    rc, text, _ = run(capsys, "fit", "--network", "cancer", "--rows", "3000", "--steps", "5", "--threads", "2", "--quiet",
+                      "--out", str(out))
     assert rc == 0 and "saved to" in text and (out / "weights.pt").exists() and (out / "model.json").exists()
+    assert "trained 2 models" in text and "distinct family configurations of 3000 rows (0 experimental)" in text
+    assert json.loads((out / "model.json").read_text())["settings"]["threads"] == 2
     rc, text, _ = run(capsys, "estimate", "--model", str(out), "--target", "Xray", "--do", "Smoker=True")
     assert rc == 0 and "P(Xray | do(Smoker=True))" in text and CAUTION in text
     rc, text, _ = run(capsys, "estimate", "--model", str(out), "--target", "Xray", "--do", "Smoker=True", "--json")
@@ -93,6 +96,12 @@ def test_fit_then_estimate_from_the_saved_model(capsys, tmp_path):
 def test_estimate_with_plugin_on_sampled_rows_prints_the_truth_too(capsys):
     rc, text, _ = run(capsys, "estimate", "--network", "greenhouse", "--estimator", "plugin", "--target", "Yield", "--do", "Irrigation=high")
     assert rc == 0 and "Exact answer from the network 'greenhouse'" in text
+
+
+def test_threads_must_be_positive(capsys):
+    rc, _, err = run(capsys, "estimate", "--network", "cancer", "--rows", "200", "--threads", "0", "--quiet",
+                     "--target", "Xray", "--do", "Smoker=True")
+    assert rc == 2 and "threads must be a positive integer, got 0" in err
 
 
 def test_estimate_from_csv_and_graph(capsys, tmp_path):
@@ -113,7 +122,7 @@ def test_estimate_from_csv_and_graph(capsys, tmp_path):
 
 def test_estimate_refuses_a_model_for_another_graph(capsys, tmp_path):
     out = tmp_path / "model"
-    run(capsys, "fit", "--network", "cancer", "--rows", "500", "--epochs", "2", "--quiet", "--out", str(out))
+    run(capsys, "fit", "--network", "cancer", "--rows", "500", "--steps", "2", "--quiet", "--out", str(out))
     (tmp_path / "g.yaml").write_text("edges:\n  - [Pollution, Cancer]\n  - [Smoker, Cancer]\n  - [Cancer, Xray]\n")
     rc, _, err = run(capsys, "estimate", "--model", str(out), "--graph", str(tmp_path / "g.yaml"), "--target", "Xray", "--do", "Smoker=True")
     assert rc == 2 and "the model was trained on other variables" in err

@@ -22,7 +22,7 @@ def cfg(**changes):
 
 
 def test_a_valid_config():
-    c = cfg(estimators=["naive", {"neural": {"epochs": 5, "label": "quick"}}], queries={"count": 3, "kinds": ["do", None]})
+    c = cfg(estimators=["naive", {"neural": {"steps": 5, "label": "quick"}}], queries={"count": 3, "kinds": ["do", None]})
     assert [e.label for e in c.estimators] == ["naive", "quick"]
     assert c.query_kinds == ("do", "null") and c.grid_size == 2
 
@@ -35,8 +35,8 @@ def test_a_valid_config():
         ({"rows": [100, 2.5]}, r"rows: expected whole numbers, got 2.5"),
         ({"networks": ["alrm"]}, r"networks\[0\]: unknown network 'alrm' \(did you mean 'alarm'\?\)"),
         ({"estimators": ["nueral"]}, r"estimators\[0\]: unknown estimator 'nueral' \(did you mean 'neural'\?\)"),
-        ({"estimators": [{"neural": {"epoch": 3}}]}, r"estimators\[0\].neural: unknown setting 'epoch' \(did you mean 'epochs'\?\)"),
-        ({"estimators": [{"neural": {"epochs": "ten"}}]}, r"estimators\[0\].neural.epochs: expected int, got 'ten'"),
+        ({"estimators": [{"neural": {"step": 3}}]}, r"estimators\[0\].neural: unknown setting 'step' \(did you mean 'steps'\?\)"),
+        ({"estimators": [{"neural": {"steps": "ten"}}]}, r"estimators\[0\].neural.steps: expected int, got 'ten'"),
         ({"estimators": [{"plugin": {"seed": 3}}]}, r"'seed' is set by the harness"),
         ({"metrics": ["tvd"]}, r"metrics: unknown metric 'tvd' \(did you mean 'tv'\?\)"),
         ({"queries": {"kinds": ["does"]}}, r"queries.kinds: unknown query kind 'does' \(did you mean 'do'\?\)"),
@@ -70,7 +70,7 @@ def test_a_valid_config():
         ({"estimators": [{"plugin": {"alpha": "often"}}]}, r"estimators\[0\].plugin: alpha must be a non-negative number or 'auto', got 'often'"),
         ({"estimators": [{"backdoor": {"classifier": "logisitc"}}]}, r"estimators\[0\].backdoor: unknown classifier 'logisitc' \(did you mean 'logistic'\?\)"),
         ({"estimators": [{"estimand": {"formula": "simple"}}]}, r"estimators\[0\].estimand: unknown formula 'simple' \(did you mean 'simplest'\?\)"),
-        ({"estimators": [{"neural": {"epochs": 0}}]}, r"estimators\[0\].neural: epochs must be a positive integer, got 0"),
+        ({"estimators": [{"neural": {"steps": 0}}]}, r"estimators\[0\].neural: steps must be a positive integer, got 0"),
         # labels name the run files
         ({"estimators": [{"plugin": {"label": "a/b"}}]}, r"estimators\[0\].plugin: label 'a/b' cannot name a run file"),
         ({"networks": [{"network": "cancer", "label": "my net"}]}, r"networks\[0\]: label 'my net' cannot name a run file"),

@@ -23,7 +23,7 @@ TINY = {
     "rows": [300, 1000],
     "seeds": [0],
     "queries": {"count": 4, "kinds": ["do", "conditional", "joint", None], "seed": 0},
-    "estimators": ["naive", "plugin", "backdoor", {"neural": {"epochs": 4, "refit": False}}],
+    "estimators": ["naive", "plugin", "backdoor", {"neural": {"steps": 4}}],
     "metrics": ["tv", "kl", "jsd", "hellinger", "effect"],
     "workers": 1,
     "bootstrap": 200,

@@ -10,12 +10,22 @@ import pytest
 
 import intervgnn as ig
 from intervgnn.errors import CheckpointError, QueryError
-from intervgnn.estimators import NeuralEstimator
+from intervgnn.estimators import NeuralEstimator, PluginEstimator
+from intervgnn.estimators.plugin import count_table
 from intervgnn.eval import make_query_set, total_variation
 
 from .conftest import our_network
 
-SETTINGS = dict(epochs=80, seed=0)
+SETTINGS = dict(seed=0)
+
+
+def refit_as(est, **settings):
+    """The same learned state answered with other settings (mode, cut)."""
+    other = NeuralEstimator(**{**est.get_params(), **settings})
+    other.graph_, other.states_, other.models_, other.cells_, other.n_rows_ = (
+        est.graph_, est.states_, est.models_, est.cells_, est.n_rows_)
+    other._prepare_answers()
+    return other
 
 
 @pytest.fixture(scope="module")
@@ -28,20 +38,21 @@ def earthquake_fit():
 def test_matches_exact_do_answers_on_earthquake(earthquake_fit):
     # Tolerance: on these 20,000 rows the plug-in (counting) estimator's error
     # on the same do-queries is 0.0065 TV on average and 0.0215 at worst
-    # (measured); the neural estimate must stay within mean 0.012 and max 0.04.
+    # (measured); the neural estimate must stay within 10% of it.
     net, est = earthquake_fit
     qs = make_query_set(net, 50, seed=0)
+    rows = net.sample(20_000, seed=0)
+    plug = PluginEstimator().fit(rows, net.graph)
     tvs = [total_variation(est.query(q.target, do=q.do_dict).probs, q.exact.probs) for q in qs]
-    assert np.mean(tvs) < 0.012, np.mean(tvs)
+    ref = [total_variation(plug.query(q.target, do=q.do_dict).probs, q.exact.probs) for q in qs]
+    assert np.mean(tvs) < 1.1 * np.mean(ref), (np.mean(tvs), np.mean(ref))
     assert max(tvs) < 0.04, max(tvs)
     assert est.answer_mode_ == "exact"
 
 
 def test_monte_carlo_mode_agrees_with_exact_mode(earthquake_fit):
     net, est = earthquake_fit
-    mc = NeuralEstimator(**{**SETTINGS, "mode": "monte_carlo", "mc_samples": 40_000})
-    mc.graph_, mc.states_, mc.model_ = est.graph_, est.states_, est.model_
-    mc._prepare_answers()
+    mc = refit_as(est, mode="monte_carlo", mc_samples=40_000)
     assert mc.answer_mode_ == "monte_carlo"
     for do, given in [({"Burglary": "True"}, {}), ({"Earthquake": "False"}, {"MaryCalls": "True"})]:
         a = est.query("Alarm" if not given else "JohnCalls", do=do, given=given)
@@ -52,9 +63,7 @@ def test_monte_carlo_mode_agrees_with_exact_mode(earthquake_fit):
 
 def test_ablation_answers_do_as_observation(earthquake_fit):
     net, est = earthquake_fit
-    abl = NeuralEstimator(**{**SETTINGS, "cut": False})
-    abl.graph_, abl.states_, abl.model_ = est.graph_, est.states_, est.model_
-    abl._prepare_answers()
+    abl = refit_as(est, cut=False)
     do = {"Alarm": "True"}
     np.testing.assert_allclose(abl.query("Burglary", do=do).probs, est.query("Burglary", given=do).probs)
     assert total_variation(abl.query("Burglary", do=do), est.query("Burglary", do=do)) > 0.1
@@ -63,11 +72,13 @@ def test_ablation_answers_do_as_observation(earthquake_fit):
 def test_same_seed_same_model():
     net = our_network("cancer")
     rows = net.sample(2000, seed=5)
-    settings = {**SETTINGS, "epochs": 5, "refit": False}
+    settings = {**SETTINGS, "steps": 20}
     a = NeuralEstimator(**settings).fit(rows, net.graph)
     b = NeuralEstimator(**settings).fit(rows, net.graph)
-    for (k, x), (_, y) in zip(a.model_.state_dict().items(), b.model_.state_dict().items()):
-        assert np.array_equal(x.numpy(), y.numpy()), k
+    assert list(a.models_) == ["fold0", "fold1"]
+    for key in a.models_:
+        for (k, x), (_, y) in zip(a.models_[key].state_dict().items(), b.models_[key].state_dict().items()):
+            assert np.array_equal(x.numpy(), y.numpy()), (key, k)
     q = dict(target="Xray", do={"Smoker": "True"})
     assert np.array_equal(a.query(**q).probs, b.query(**q).probs)
     c = NeuralEstimator(**{**settings, "seed": 1}).fit(rows, net.graph)
@@ -109,5 +120,61 @@ def test_bad_settings():
     rows = net.sample(50, seed=0)
     with pytest.raises(QueryError, match="mode must be one of auto, exact, monte_carlo; got 'fast'"):
         NeuralEstimator(mode="fast").fit(rows, net.graph)
-    with pytest.raises(ig.DataError, match="epochs must be a positive integer, got 0"):
-        NeuralEstimator(epochs=0).fit(rows, net.graph)
+    with pytest.raises(ig.DataError, match="steps must be a positive integer, got 0"):
+        NeuralEstimator(steps=0).fit(rows, net.graph)
+    with pytest.raises(ig.DataError, match=r"prior_counts must lie in \(0, 1\], got 0"):
+        NeuralEstimator(prior_counts=0).fit(rows, net.graph)
+    with pytest.raises(ig.DataError, match="folds must be a whole number of at least 2, got 1"):
+        NeuralEstimator(folds=1).fit(rows, net.graph)
+    with pytest.raises(ig.DataError, match="lr must be above 0, got -1"):
+        NeuralEstimator(lr=-1).fit(rows, net.graph)
+    with pytest.raises(ig.DataError, match="threads must be a positive integer, got 0"):
+        NeuralEstimator(threads=0).fit(rows, net.graph)
+
+
+def test_counts_only_prior_is_the_plugin():
+    # prior_counts=1 leaves no weight to the neural prior: the CPTs are the
+    # plug-in's smoothed counts with its leave-one-out alpha, exactly
+    net = our_network("child")
+    rows = net.sample(1500, seed=3)
+    est = NeuralEstimator(seed=0, steps=5, prior_counts=1.0).fit(rows, net.graph)
+    plug = PluginEstimator().fit(rows, net.graph)
+    for v in net.variables:
+        np.testing.assert_allclose(est.network_.cpt(v), plug.network_.cpt(v), rtol=1e-12, atol=1e-15)
+    assert set(est.neural_share_.values()) == {0.0}
+
+
+def test_large_samples_approach_the_counts():
+    # at large n the answer approaches the maximum-likelihood CPTs: every
+    # parent configuration seen 2,000 times or more is within 0.01 of its
+    # relative frequencies, whatever weight the neural prior got
+    net = our_network("survey")
+    rows = net.sample(200_000, seed=4)
+    est = NeuralEstimator(seed=0).fit(rows, net.graph)
+    for v in net.variables:
+        counts = count_table(rows, net.graph, v)
+        seen = counts.sum(axis=1) >= 2000
+        mle = counts[seen] / counts[seen].sum(axis=1, keepdims=True)
+        got = est.network_.cpt(v).reshape(counts.shape)[seen]
+        assert np.abs(got - mle).max() < 0.01, v
+
+
+def test_fit_cost_does_not_grow_with_rows():
+    # the models train on distinct family configurations: 20 times the rows
+    # add few cells (earthquake has at most 26 (configuration, state) pairs)
+    net = our_network("earthquake")
+    small = NeuralEstimator(seed=0, steps=3).fit(net.sample(5_000, seed=0), net.graph)
+    large = NeuralEstimator(seed=0, steps=3).fit(net.sample(100_000, seed=0), net.graph)
+    assert small.cells_.num_cells <= large.cells_.num_cells <= 26
+    assert large.cells_.count.sum() == 100_000 * 5
+
+
+def test_monte_carlo_mode_uses_the_counts_too():
+    # a forced Monte Carlo answer on a parent configuration seen often must follow its counts
+    net = our_network("cancer")
+    rows = net.sample(50_000, seed=2)
+    est = NeuralEstimator(seed=0, mode="monte_carlo", mc_samples=60_000).fit(rows, net.graph)
+    plug = PluginEstimator().fit(rows, net.graph)
+    for do in ({"Cancer": "True"}, {"Smoker": "False"}):
+        a, b = est.query("Xray", do=do), plug.query("Xray", do=do)
+        assert total_variation(a, b) < 0.02, (do, a.probs, b.probs)

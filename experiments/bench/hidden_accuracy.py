@@ -152,7 +152,7 @@ def main():
                     help="networks whose most confounded non-identifiable query gets experimental rows")
     ap.add_argument("--unidentified-seeds", nargs="+", type=int, default=None,
                     help="seeds of the non-identifiable runs (default: the first of --seeds)")
-    ap.add_argument("--threads", type=int, default=2)
+    ap.add_argument("--threads", type=int, default=1, help="torch threads per fit")
     ap.add_argument("--out", default=None, help="write all figures as JSON here")
     args = ap.parse_args()
     if args.unidentified_seeds is None:
@@ -182,10 +182,10 @@ def main():
             plug = PluginEstimator().fit(rows, graph.without_bidirected())
             estd = EstimandEstimator().fit(rows, graph)
             t0 = time.perf_counter()
-            neural = NeuralEstimator(seed=seed, unidentified="answer").fit(rows, graph)
+            neural = NeuralEstimator(seed=seed, unidentified="answer", threads=args.threads).fit(rows, graph)
             train_s = time.perf_counter() - t0
-            rec = {"seed": seed, "train_s": train_s, "mode": neural.answer_mode_, "epochs": len(neural.train_result_.history),
-                   "per_query": {}}
+            rec = {"seed": seed, "train_s": train_s, "mode": neural.answer_mode_,
+                   "steps": {k: r.steps for k, r in neural.train_results_.items()}, "per_query": {}}
             for label, est in (("plugin", plug), ("estimand", estd), ("neural", neural)):
                 rec[label] = float(scores(est, chosen).mean()) if chosen else None
                 rec["per_query"][label] = scores(est, [q for q in queries if q.identifiable]).tolist()
@@ -250,8 +250,8 @@ def main():
         for seed in args.unidentified_seeds:
             obs = net.sample(args.rows, seed=seed).select(observed)
             exp = experimental_rows(net, x, args.experimental, seed=1000 + seed).select(observed)
-            before = NeuralEstimator(seed=seed, unidentified="answer").fit(obs, graph)
-            after = NeuralEstimator(seed=seed, unidentified="answer").fit(ig.Table.concat([obs, exp]), graph)
+            before = NeuralEstimator(seed=seed, unidentified="answer", threads=args.threads).fit(obs, graph)
+            after = NeuralEstimator(seed=seed, unidentified="answer", threads=args.threads).fit(ig.Table.concat([obs, exp]), graph)
             tv_before = scores(before, pattern)
             tv_after = scores(after, pattern)
             rec["runs"].append({"seed": seed, "tv_observational": tv_before.tolist(),

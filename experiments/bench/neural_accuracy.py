@@ -55,9 +55,11 @@ def query_seconds(est, queries, count=100):
 
 
 def ablation_from(est):
-    """The same trained weights answering do(X=x) as if X=x had been observed."""
+    """The same trained models and counts answering do(X=x) as if X=x had been observed."""
     abl = NeuralEstimator(**{**est.get_params(), "cut": False})
-    abl.graph_, abl.states_, abl.model_, abl.train_result_ = est.graph_, est.states_, est.model_, est.train_result_
+    abl.graph_, abl.states_, abl.models_, abl.cells_, abl.n_rows_ = (
+        est.graph_, est.states_, est.models_, est.cells_, est.n_rows_)
+    abl.train_results_ = est.train_results_
     abl._prepare_answers()
     return abl
 
@@ -79,7 +81,7 @@ def run_one(net, queries, rows, seed, ablation=True):
     plug = PluginEstimator().fit(rows, net.graph)
     p = tv_scores(plug, queries)
     t0 = time.perf_counter()
-    neural = NeuralEstimator(seed=seed).fit(rows, net.graph)
+    neural = NeuralEstimator(seed=seed, threads=torch.get_num_threads()).fit(rows, net.graph)
     train_s = time.perf_counter() - t0
     n = tv_scores(neural, queries)
     rec = {
@@ -89,14 +91,15 @@ def run_one(net, queries, rows, seed, ablation=True):
         "neural_conf": float(n[conf].mean()) if conf.any() else None,
         "train_s": train_s,
         "query_s_100": query_seconds(neural, queries),
-        "epochs": len(neural.train_result_.history),
+        "steps": {k: r.steps for k, r in neural.train_results_.items()},
+        "neural_share": float(np.mean(list(neural.neural_share_.values()))),
         "mode": neural.answer_mode_,
     }
     if ablation:
         if rows.is_observational:
             abl = ablation_from(neural)
         else:
-            abl = NeuralEstimator(seed=seed, cut=False).fit(rows, net.graph)
+            abl = NeuralEstimator(seed=seed, cut=False, threads=torch.get_num_threads()).fit(rows, net.graph)
         a = tv_scores(abl, queries)
         rec["ablation_conf"] = float(a[conf].mean()) if conf.any() else None
     return rec
@@ -192,7 +195,7 @@ def main():
     ap.add_argument("--mixed-only", action="store_true", help="run only the mixed comparison (implies --mixed)")
     ap.add_argument("--mixed-seeds", nargs="+", type=int, default=None, help="seeds of the mixed comparison (default: --seeds)")
     ap.add_argument("--jobs", type=int, default=1, help="parallel fits in the mixed comparison (one thread each)")
-    ap.add_argument("--threads", type=int, default=2)
+    ap.add_argument("--threads", type=int, default=1, help="torch threads (the estimator's default: one)")
     ap.add_argument("--out", default=None, help="write all figures as JSON here")
     args = ap.parse_args()
     torch.set_num_threads(args.threads)

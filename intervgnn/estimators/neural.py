@@ -1,8 +1,11 @@
-"""Neural estimator: the interventional VGAE, trained on rows, answering do-queries."""
+"""Neural estimator: the interventional VGAE trained on sufficient statistics, answering do-queries."""
 
 from __future__ import annotations
 
+import contextlib
+import copy
 import hashlib
+import io
 import json
 import os
 from collections.abc import Mapping
@@ -14,66 +17,115 @@ from .._io import atomic_open, make_folder
 from ..bn.network import CausalNetwork
 from ..errors import CheckpointError, DataError, NotIdentified, QueryError
 from ..graph import CausalGraph
-from ..models.answer import monte_carlo, table_rows_needed, tabulate_cpts
-from ..models.training import train_vgae
-from ..models.vgae import InterventionalVGAE
+from ..models.answer import conditionals, monte_carlo, table_rows_needed, tabulate_cpts
+from ..models.shrinkage import Mixture, mixture_rows, mixture_weights
+from ..models.stats import MAX_FAMILY_CELLS, FamilyCells, GroupCells, config_index, count_cells
+from ..models.training import init_output_bias, train_vgae
+from ..models.vgae import FamilyBatch, InterventionalVGAE, family_edges
 from ..query import Query
 from ..table import Table
 from .base import Estimator, check_fit_inputs
 
-__all__ = ["NeuralEstimator", "NotIdentified", "WEIGHTS_FILE", "META_FILE"]
+__all__ = ["NeuralEstimator", "NotIdentified", "WEIGHTS_FILE", "META_FILE", "CHECKPOINT_FORMAT"]
 
 WEIGHTS_FILE = "weights.pt"
 META_FILE = "model.json"
+#: format tag of ``model.json``
+CHECKPOINT_FORMAT = "intervgnn-neural-2"
 _MODES = ("auto", "exact", "monte_carlo")
 
 
-def auto_batch_size(n_rows: int) -> int:
-    """Rows per minibatch when none is set: an eighth of the rows, between 32 and 512."""
-    return int(min(512, max(32, n_rows // 8)))
+def _seed(*parts: int) -> int:
+    """A 31-bit seed derived from integers (numpy's SeedSequence: independent streams per part)."""
+    return int(np.random.SeedSequence([int(p) for p in parts]).generate_state(1)[0] & 0x7FFFFFFF)
+
+
+@contextlib.contextmanager
+def torch_threads(threads: int | None):
+    """Run a block with ``threads`` torch threads (None: one), restoring the previous count after.
+
+    One thread is the default: training runs many small operations, where
+    extra threads only add synchronisation, and on a machine busy with other
+    work two threads were measured five times slower than one.
+    """
+    old = torch.get_num_threads()
+    torch.set_num_threads(int(threads or 1))
+    try:
+        yield
+    finally:
+        torch.set_num_threads(old)
 
 
 class NeuralEstimator(Estimator):
-    """Answer do-queries with an interventional VGAE trained on the rows.
+    """Answer do-queries with interventional VGAEs trained on the rows' sufficient statistics.
 
-    ``fit`` trains the model with the intervention-aware ELBO (Adam,
-    minibatches, early stopping on a held-out split). Queries are answered
-    in *exact* mode (each node's conditional tabulated from the decoder over
-    its parent configurations, z integrated out by Monte Carlo, then exact
+    ``fit`` counts the distinct family configurations of the rows once (an
+    intervened node's value is not counted for its own mechanism) and trains
+    the VGAE on them with the intervention-aware ELBO, full-batch: the cost
+    of training does not grow with the number of rows.
+
+    Each CPT row is then the posterior mean of the counts under a Dirichlet
+    prior centred on the decoder's conditional (see
+    :mod:`intervgnn.models.shrinkage`): the decoder shares strength across
+    parent configurations where rows are few, the counts take over where
+    they are many. How much each node trusts the decoder is decided by
+    cross-fitted held-out likelihood: the rows are split into ``folds``,
+    one model is trained without each fold, and each fold's rows are scored
+    with the model that did not see them. The counts-only answer (the
+    plug-in estimator's) keeps ``prior_counts`` of the prior weight, so the
+    decoder must earn its weight on held-out rows.
+
+    With hidden common causes (a diagram with bidirected edges) one more
+    model is trained on all rows, with one shared discrete latent per
+    confounded component; it supplies the components' mechanisms and
+    latents, which counts cannot (the latent is never observed).
+
+    Queries are answered in *exact* mode (the CPTs above, then exact
     variable elimination) when every node has at most ``max_table_rows``
     parent configurations, and in *Monte Carlo* mode (ancestral sampling
-    through the mutilated graph, likelihood weighting for evidence)
-    otherwise; ``mode`` forces one.
+    through the mutilated graph with the same conditionals computed on the
+    fly, likelihood weighting for evidence) otherwise; ``mode`` forces one.
 
     Parameters
     ----------
     dim, hidden, z_dim, num_layers, encoder_hidden : int
         Model size (see :class:`~intervgnn.models.InterventionalVGAE`).
-    epochs, batch_size, lr, weight_decay, val_fraction, patience, lr_patience, refit, average
-        Training settings (``batch_size=None`` picks an eighth of the rows,
-        between 32 and 512) (see :func:`~intervgnn.models.train_vgae`): Adam on
-        minibatches, early stopping on a held-out split with a halving
-        learning rate, then (``refit``) retraining on all rows for the best
-        number of epochs.
+    steps : int
+        Full-batch Adam steps per cross-fitted model.
+    lr, weight_decay : float
+        Adam's settings; the learning rate follows a cosine to zero.
+    latent_steps, latent_lr, latent_restarts : int, float, int
+        Steps and learning rate of the model with hidden-cause latents
+        (diagrams with bidirected edges only), and how many times it is
+        trained from different starts. A mixture over each component's latent
+        states needs longer training than the cross-fitted models, and a run
+        can end in the degenerate mixture whose states all predict alike
+        (which answers do(X) like P(Y | X)); every 100 steps the weights are
+        scored by the rows' likelihood under the decoder, and the best
+        scoring weights of the best restart are kept.
+    folds : int
+        Folds of rows for cross-fitting (at least 2).
+    prior_counts : float
+        Prior weight of the counts-only answer against the neural prior, in
+        (0, 1]; 1 gives the plug-in's smoothed counts.
     seed : int
-        Seeds weights, split, batches and noise: the same seed on the same
-        machine gives the same model.
+        Seeds folds, weights and noise: the same seed on the same machine
+        gives the same model.
     mode : {"auto", "exact", "monte_carlo"}
         How queries are answered.
     max_table_rows : int
         Largest parent-configuration count for which ``auto`` picks exact mode.
     z_samples : int
-        Prior samples of z per parent configuration in exact mode.
+        Prior samples of z per parent configuration when tabulating.
     mc_samples : int
         Samples per query in Monte Carlo mode.
     cut : bool
         True (default): interventions cut parent edges and intervened rows
-        follow their regime. False is the ablation: training is regime-blind
+        follow their regime. False is the ablation: counting is regime-blind
         and do(X=x) is answered as if X=x had been observed.
     u_states : int
         Number of states of the shared discrete latent of each confounded
-        component (diagrams with bidirected edges only); the latent becomes
-        a node of that many states in exact mode.
+        component; the latent becomes a node of that many states in exact mode.
     unidentified : {"refuse", "answer"}
         On a diagram with hidden common causes, a query that is not
         identifiable raises :class:`NotIdentified` (default), or is answered
@@ -83,12 +135,14 @@ class NeuralEstimator(Estimator):
         Training device (CPU by default; never required).
     progress : bool
         Show a tqdm progress bar while training.
+    threads : int, optional
+        Torch threads while fitting and sampling (default: one).
 
     Examples
     --------
     >>> import intervgnn as ig
     >>> net = ig.load_network("earthquake")
-    >>> est = NeuralEstimator(epochs=30, seed=0).fit(net.sample(2000, seed=0), net.graph)
+    >>> est = NeuralEstimator(seed=0).fit(net.sample(2000, seed=0), net.graph)
     >>> est.query("Alarm", do={"Burglary": "True"}).variables
     ('Alarm',)
     """
@@ -97,45 +151,44 @@ class NeuralEstimator(Estimator):
 
     def __init__(
         self,
-        dim: int = 32,
-        hidden: int = 64,
+        dim: int = 16,
+        hidden: int = 32,
         z_dim: int = 4,
         num_layers: int = 2,
-        encoder_hidden: int | None = 16,
-        epochs: int = 300,
-        batch_size: int | None = None,
+        encoder_hidden: int | None = 8,
+        steps: int = 100,
         lr: float = 1e-2,
         weight_decay: float = 0.0,
-        val_fraction: float = 0.1,
-        patience: int = 30,
-        lr_patience: int | None = 5,
-        refit: bool = True,
-        average: float | None = 0.98,
+        latent_steps: int = 3000,
+        latent_lr: float = 1e-2,
+        latent_restarts: int = 2,
+        folds: int = 2,
+        prior_counts: float = 0.8,
         seed: int = 0,
         mode: str = "auto",
         max_table_rows: int = 4096,
         z_samples: int = 64,
         mc_samples: int = 20000,
         cut: bool = True,
-        u_states: int = 4,
+        u_states: int = 6,
         unidentified: str = "refuse",
         device: str = "cpu",
         progress: bool = False,
+        threads: int | None = None,
     ):
         self.dim = dim
         self.hidden = hidden
         self.z_dim = z_dim
         self.num_layers = num_layers
         self.encoder_hidden = encoder_hidden
-        self.epochs = epochs
-        self.batch_size = batch_size
+        self.steps = steps
         self.lr = lr
         self.weight_decay = weight_decay
-        self.val_fraction = val_fraction
-        self.patience = patience
-        self.lr_patience = lr_patience
-        self.refit = refit
-        self.average = average
+        self.latent_steps = latent_steps
+        self.latent_lr = latent_lr
+        self.latent_restarts = latent_restarts
+        self.folds = folds
+        self.prior_counts = prior_counts
         self.seed = seed
         self.mode = mode
         self.max_table_rows = max_table_rows
@@ -146,19 +199,35 @@ class NeuralEstimator(Estimator):
         self.unidentified = unidentified
         self.device = device
         self.progress = progress
+        self.threads = threads
 
     # ------------------------------------------------------------------ fit
     def _check_settings(self) -> None:
         if self.mode not in _MODES:
             raise QueryError(f"mode must be one of {', '.join(_MODES)}; got '{self.mode}'")
-        for key in ("dim", "hidden", "z_dim", "num_layers", "epochs", "batch_size", "z_samples", "mc_samples", "u_states"):
+        positive = ("dim", "hidden", "z_dim", "num_layers", "steps", "latent_steps", "latent_restarts", "z_samples",
+                    "mc_samples", "u_states", "max_table_rows")
+        for key in positive + ("encoder_hidden", "threads"):
             value = getattr(self, key)
-            if key == "batch_size" and value is None:
+            if key in ("encoder_hidden", "threads") and value is None:
                 continue
-            if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+            if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
                 raise DataError(f"{key} must be a positive integer, got {value!r}")
-        if not 0.0 <= float(self.val_fraction) < 1.0:
-            raise DataError(f"val_fraction must lie in [0, 1), got {self.val_fraction!r}")
+        if isinstance(self.folds, bool) or not isinstance(self.folds, (int, np.integer)) or self.folds < 2:
+            raise DataError(f"folds must be a whole number of at least 2, got {self.folds!r}")
+        for key in ("lr", "latent_lr", "weight_decay", "prior_counts"):
+            value = getattr(self, key)
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
+                raise DataError(f"{key} must be a number, got {value!r}")
+        for key in ("lr", "latent_lr"):
+            if not getattr(self, key) > 0:
+                raise DataError(f"{key} must be above 0, got {getattr(self, key)!r}")
+        if self.weight_decay < 0:
+            raise DataError(f"weight_decay must be 0 or more, got {self.weight_decay!r}")
+        if not 0 < self.prior_counts <= 1:
+            raise DataError(f"prior_counts must lie in (0, 1], got {self.prior_counts!r}")
+        if isinstance(self.seed, bool) or not isinstance(self.seed, (int, np.integer)) or self.seed < 0:
+            raise DataError(f"seed must be a non-negative whole number, got {self.seed!r}")
         if self.unidentified not in ("refuse", "answer"):
             raise QueryError(f"unidentified must be 'refuse' or 'answer'; got '{self.unidentified}'")
 
@@ -168,9 +237,8 @@ class NeuralEstimator(Estimator):
         index = {v: i for i, v in enumerate(graph.nodes)}
         return [[index[v] for v in comp] for comp in graph.c_components() if len(comp) > 1]
 
-    def _build(self, graph: CausalGraph, states: Mapping[str, tuple[str, ...]]) -> InterventionalVGAE:
-        torch.manual_seed(int(self.seed))
-        groups = self._groups(graph)
+    def _build(self, graph: CausalGraph, states: Mapping[str, tuple[str, ...]], seed: int) -> InterventionalVGAE:
+        torch.manual_seed(int(seed))
         return InterventionalVGAE(
             [len(states[v]) for v in graph.nodes],
             graph.edge_index,
@@ -179,56 +247,239 @@ class NeuralEstimator(Estimator):
             z_dim=self.z_dim,
             num_layers=self.num_layers,
             encoder_hidden=self.encoder_hidden,
-            groups=groups,
+            groups=self._groups(graph),
             u_states=self.u_states,
-        )
+        ).to(self.device)
+
+    def _parents(self, graph: CausalGraph | None = None) -> list[list[int]]:
+        graph = self.graph_ if graph is None else graph
+        index = {v: i for i, v in enumerate(graph.nodes)}
+        return [[index[p] for p in graph.parents(v)] for v in graph.nodes]
 
     def fit(self, table: Table, graph: CausalGraph) -> NeuralEstimator:
-        """Train on ``table`` (observational and experimental rows) for the diagram ``graph``."""
+        """Train on ``table`` (observational and experimental rows) for the diagram ``graph``.
+
+        Raises
+        ------
+        DataError
+            Bad settings, or data that do not match the graph.
+        """
         self._check_settings()
         table = check_fit_inputs(table, graph)
-        self.graph_ = graph
-        self.states_ = table.states
-        self.model_ = self._build(graph, self.states_)
-        self.train_result_ = train_vgae(
-            self.model_,
-            table.codes,
-            table.intervened,
-            epochs=self.epochs,
-            batch_size=self.batch_size or auto_batch_size(table.n_rows),
-            lr=self.lr,
-            weight_decay=self.weight_decay,
-            val_fraction=self.val_fraction,
-            patience=self.patience,
-            lr_patience=self.lr_patience,
-            refit=self.refit,
-            average=self.average,
-            seed=self.seed,
-            regime_aware=self.cut,
-            use_cut=self.cut,
-            device=self.device,
-            progress=self.progress,
-        )
-        self.model_.to("cpu")
-        self._prepare_answers()
+        states = table.states
+        cards = [len(states[v]) for v in graph.nodes]
+        for v in graph.nodes:
+            size = int(np.prod([len(states[p]) for p in graph.parents(v)], dtype=object)) * len(states[v])
+            if size >= MAX_FAMILY_CELLS:
+                raise DataError(f"variable '{v}' has {size} (parent configuration, state) pairs; too many to count")
+        with torch_threads(self.threads):
+            self.graph_ = graph
+            self.states_ = states
+            groups = self._groups(graph)
+            n = table.n_rows
+            folds = np.empty(n, dtype=np.int64)
+            folds[np.random.default_rng(_seed(self.seed, 1)).permutation(n)] = np.arange(n) % self.folds
+            cells = count_cells(
+                table.codes, table.intervened, self._parents(graph), cards, groups=groups, folds=folds,
+                num_folds=self.folds, regime_aware=self.cut,
+            )
+            members = {i for g in groups for i in g}
+            free = [i for i in range(len(cards)) if i not in members]
+            plan = ([f"fold{f}" for f in range(self.folds)] if free else []) + (
+                [f"all#{r}" for r in range(self.latent_restarts)] if groups else []
+            )
+            total = sum(self.latent_steps if key.startswith("all") else self.steps for key in plan)
+            bar = None
+            if self.progress and total:
+                from tqdm.auto import tqdm
+
+                bar = tqdm(total=total, desc=f"training {len(plan)} models", unit="step", leave=False)
+            self.models_, self.train_results_ = {}, {}
+            template = self._build(graph, states, 0) if plan else None
+
+            def train(key: str):
+                # a copy of one built model, re-initialised with this model's seed (building a PyG layer
+                # inspects its methods, which costs more than a copy)
+                model = copy.deepcopy(template)
+                torch.manual_seed(_seed(self.seed, 2, plan.index(key)))
+                model.reset_parameters()
+                if key.startswith("all"):
+                    part, weight, group_weight = cells, cells.count, [g.count for g in cells.groups]
+                    steps, lr = self.latent_steps, self.latent_lr
+                else:
+                    part = cells.subset(free)
+                    weight, group_weight, steps, lr = part.heldout(int(key[4:])), [], self.steps, self.lr
+                batch = FamilyBatch.from_cells(model, part)
+                init_output_bias(model, part, weight)
+
+                def tick(step, elbo):
+                    if bar is not None:
+                        bar.update(1)
+                        if step % 10 == 0:
+                            bar.set_postfix(model=key, elbo=f"{elbo:.3f}")
+
+                result = train_vgae(
+                    model, batch, weight, group_weight, steps=steps, lr=lr, weight_decay=self.weight_decay,
+                    seed=_seed(self.seed, 3, plan.index(key)), rows=n, on_step=tick,
+                    keep_best_every=100 if key.startswith("all") else 0,
+                )
+                return key, model.to("cpu").eval(), result
+
+            try:
+                latent = []
+                for key in plan:
+                    _, model, result = train(key)
+                    if key.startswith("all"):
+                        latent.append((max(score for _, score in result.checkpoints), model, result))
+                    else:
+                        self.models_[key], self.train_results_[key] = model, result
+                if latent:
+                    # restarts of a mixture: keep the one whose rows are most likely (a degenerate mixture,
+                    # whose latent states all predict alike, scores lower)
+                    self.latent_scores_ = [score for score, _, _ in latent]
+                    _, self.models_["all"], self.train_results_["all"] = max(latent, key=lambda item: item[0])
+            finally:
+                if bar is not None:
+                    bar.close()
+            self.cells_ = cells
+            self.n_rows_ = n
+            self._prepare_answers()
         return self
 
+    # ------------------------------------------------------------ answering
+    @property
+    def model_(self) -> InterventionalVGAE:
+        """The first trained VGAE (a cross-fitted one, or the latent model when every node is confounded)."""
+        self._check_fitted()
+        return next(iter(self.models_.values()))
+
+    @property
+    def neural_share_(self) -> dict[str, float]:
+        """Per variable, the posterior weight of the neural prior against the counts (0: counts alone).
+
+        Variables in a confounded component are answered by the latent model
+        and are not listed.
+        """
+        self._check_fitted()
+        return {self.graph_.nodes[i]: m.neural_share for i, m in self.mixtures_.items()}
+
+    def _fold_keys(self) -> list[str]:
+        return [k for k in self.models_ if k.startswith("fold")]
+
     def _prepare_answers(self) -> None:
-        cards = {v: len(s) for v, s in self.states_.items()}
-        self.table_rows_ = table_rows_needed(self.graph_, cards, self.u_states)
+        graph, states, cells = self.graph_, self.states_, self.cells_
+        nodes = graph.nodes
+        cards = {v: len(states[v]) for v in nodes}
+        parents = self._parents()
+        self.table_rows_ = table_rows_needed(graph, cards, self.u_states)
         exact = self.mode == "exact" or (self.mode == "auto" and self.table_rows_ <= self.max_table_rows)
         self.answer_mode_ = "exact" if exact else "monte_carlo"
         self.network_ = None
         self._identifications = {}
-        if exact:
-            graph, all_cards, cpts = tabulate_cpts(
-                self.model_, self.graph_, cards, samples=self.z_samples, seed=self.seed
+        groups = self._groups()
+        members = {i for g in groups for i in g}
+        free = [i for i in range(len(nodes)) if i not in members]
+        fold_models = [self.models_[k] for k in self._fold_keys()]
+        # the configurations each free node needs: all of them (exact mode) or the observed ones
+        need_node, need_cfg, rows_of, offset = [], [], {}, 0
+        for v in free:
+            if exact:
+                cfgs = np.arange(cells.configs(v))
+            else:
+                cfgs = np.unique(cells.cfg[cells.node_slice(v)])
+            rows_of[v] = (offset, cfgs)
+            offset += len(cfgs)
+            need_node.append(np.full(len(cfgs), v))
+            need_cfg.append(cfgs)
+        bases = []
+        if fold_models and free:
+            node_arr, cfg_arr = np.concatenate(need_node), np.concatenate(need_cfg)
+            for f, model in enumerate(fold_models):
+                bases.append(conditionals(model, parents, node_arr, cfg_arr, self.z_samples, _seed(self.seed, 4, f)))
+        self.mixtures_: dict[int, Mixture] = {}
+        self._count_rows: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        cpts: dict[str, np.ndarray] = {}
+        for v in free:
+            start, cfgs = rows_of[v]
+            k = cells.cards[v]
+            sl = cells.node_slice(v)
+            pos = np.searchsorted(cfgs, cells.cfg[sl])
+            counts = np.zeros((len(cfgs), k))
+            np.add.at(counts, (pos, cells.state[sl]), cells.count[sl])
+            fold_counts = []
+            for f in range(len(fold_models)):
+                fc = np.zeros((len(cfgs), k))
+                np.add.at(fc, (pos, cells.state[sl]), cells.fold_count[f, sl])
+                fold_counts.append(fc)
+            fold_bases = [b[start : start + len(cfgs), :k] for b in bases]
+            mix = mixture_weights(counts, fold_counts, fold_bases, self.prior_counts if fold_bases else 1.0)
+            base = np.mean(fold_bases, axis=0) if fold_bases else np.full((len(cfgs), k), 1.0 / k)
+            self.mixtures_[v] = mix
+            if exact:
+                pcards = [cells.cards[p] for p in parents[v]]
+                cpts[nodes[v]] = mixture_rows(counts, base, mix).reshape(pcards + [k])
+            else:
+                self._count_rows[v] = (cfgs, counts)
+        if not exact:
+            return
+        if groups:
+            aug, all_cards, latent_cpts = tabulate_cpts(
+                self.models_["all"], graph, cards, samples=self.z_samples, seed=_seed(self.seed, 5)
             )
-            states = dict(self.states_)
-            for v in graph.nodes:
-                if v not in states:
-                    states[v] = tuple(f"draw {k}" for k in range(all_cards[v]))
+            for v in aug.nodes:
+                cpts.setdefault(v, latent_cpts[v])
+            full_states = dict(states)
+            for v in aug.nodes:
+                if v not in full_states:
+                    full_states[v] = tuple(f"draw {j}" for j in range(all_cards[v]))
+            self.network_ = CausalNetwork(aug, full_states, cpts, name="neural")
+        else:
             self.network_ = CausalNetwork(graph, states, cpts, name="neural")
+
+    def _mc_conditional(self, seed: int):
+        """Node conditionals for Monte Carlo mode: the same mixtures as exact mode, computed per sample."""
+        nodes = self.graph_.nodes
+        parents = self._parents()
+        cards = self.cells_.cards
+        fold_models = [self.models_[k] for k in self._fold_keys()]
+        latent = self.models_.get("all")
+        gen = torch.Generator().manual_seed(int(seed))
+        state = {"u": None}
+        index = {v: i for i, v in enumerate(nodes)}
+
+        def decode_probs(model, v, codes, u=None):
+            s = codes.shape[0]
+            cfg = config_index(codes, parents[v], [cards[p] for p in parents[v]])
+            node = np.full(s, v)
+            edges = torch.as_tensor(family_edges(parents, cards, node, cfg, model.num_values))
+            z = torch.randn(s, model.z_dim, generator=gen)
+            uu = None if u is None else torch.as_tensor(u)
+            with torch.no_grad():
+                logits = model.decode_families(torch.as_tensor(node), z, edges, uu)[:, : cards[v]]
+                return torch.softmax(logits.double(), dim=-1).numpy(), cfg
+
+        def conditional(name: str, codes: np.ndarray) -> np.ndarray:
+            v = index[name]
+            s = codes.shape[0]
+            if v in self.mixtures_:
+                if fold_models:
+                    probs = [decode_probs(m, v, codes) for m in fold_models]
+                    base, cfg = np.mean([p for p, _ in probs], axis=0), probs[0][1]
+                else:
+                    cfg = config_index(codes, parents[v], [cards[p] for p in parents[v]])
+                    base = np.full((s, cards[v]), 1.0 / cards[v])
+                cfgs, counts = self._count_rows[v]
+                pos = np.clip(np.searchsorted(cfgs, cfg), 0, max(len(cfgs) - 1, 0))
+                seen = (cfgs[pos] == cfg) if len(cfgs) else np.zeros(s, dtype=bool)
+                rows = np.where(seen[:, None], counts[pos] if len(cfgs) else 0.0, 0.0)
+                return mixture_rows(rows, base, self.mixtures_[v])
+            # a member of a confounded component: the latent model, hearing its component's latent
+            if state["u"] is None:
+                state["u"] = latent.prior_sample_u(s, gen).cpu().numpy()
+            g = int(latent.node_group[v])
+            return decode_probs(latent, v, codes, state["u"][:, g])[0]
+
+        return conditional
 
     # ---------------------------------------------------------------- query
     def identification(self, q: Query):
@@ -257,17 +508,39 @@ class NeuralEstimator(Estimator):
             return self.network_.query(q.targets, given={**given, **do}).probs
         codes = lambda a: {v: self.states_[v].index(s) for v, s in a.items()}  # noqa: E731
         cards = {v: len(s) for v, s in self.states_.items()}
-        return monte_carlo(
-            self.model_, self.graph_, cards, q.targets, codes(do), codes(given),
-            samples=self.mc_samples, seed=self.seed, cut=self.cut,
-        )
+        with torch_threads(self.threads):
+            return monte_carlo(
+                self._mc_conditional(_seed(self.seed, 6)), self.graph_, cards, q.targets, codes(do), codes(given),
+                samples=self.mc_samples, seed=_seed(self.seed, 7), cut=self.cut,
+            )
 
     # ---------------------------------------------------------- checkpoints
-    def save(self, path: str | os.PathLike) -> None:
-        """Save to a folder: ``weights.pt`` (a state dict) and ``model.json`` (graph, states, settings, version).
+    def _tensors(self) -> dict[str, torch.Tensor]:
+        """Everything learned, as named tensors: each model's weights and the counted cells."""
+        out: dict[str, torch.Tensor] = {}
+        for key, model in self.models_.items():
+            for name, value in model.state_dict().items():
+                out[f"{key}.{name}"] = value.detach().cpu()
+        c = self.cells_
+        out["cells.node"] = torch.as_tensor(c.node)
+        out["cells.cfg"] = torch.as_tensor(c.cfg)
+        out["cells.state"] = torch.as_tensor(c.state)
+        out["cells.count"] = torch.as_tensor(c.count)
+        out["cells.fold_count"] = torch.as_tensor(c.fold_count)
+        for i, g in enumerate(c.groups):
+            out[f"group{i}.cell"] = torch.as_tensor(g.cell)
+            out[f"group{i}.count"] = torch.as_tensor(g.count)
+            out[f"group{i}.fold_count"] = torch.as_tensor(g.fold_count)
+        return out
 
-        ``model.json`` records the SHA-256 of ``weights.pt`` so that a
-        changed weights file is refused on load.
+    def save(self, path: str | os.PathLike) -> None:
+        """Save to a folder: ``weights.pt`` (named tensors) and ``model.json`` (graph, states, settings, version).
+
+        ``weights.pt`` holds the trained models' weights and the counted
+        family configurations (the sufficient statistics the CPTs are built
+        from; they summarise the training rows). ``model.json`` records the
+        SHA-256 of ``weights.pt`` so that a changed weights file is refused
+        on load.
         """
         self._check_fitted()
         from .. import __version__
@@ -275,14 +548,15 @@ class NeuralEstimator(Estimator):
         path = os.fspath(path)
         make_folder(path)
         weights = os.path.join(path, WEIGHTS_FILE)
+        buffer = io.BytesIO()
+        torch.save(self._tensors(), buffer)
+        blob = buffer.getvalue()
         with atomic_open(weights, "wb") as fh:
-            torch.save(self.model_.state_dict(), fh)
-        with open(weights, "rb") as fh:
-            digest = hashlib.sha256(fh.read()).hexdigest()
+            fh.write(blob)
         params = self.get_params()
         params["progress"] = False
         meta = {
-            "format": "intervgnn-neural-1",
+            "format": CHECKPOINT_FORMAT,
             "package_version": __version__,
             "estimator": "neural",
             "nodes": list(self.graph_.nodes),
@@ -290,8 +564,9 @@ class NeuralEstimator(Estimator):
             "confounded": [list(e) for e in self.graph_.bidirected],
             "states": {v: list(s) for v, s in self.states_.items()},
             "settings": params,
-            "weights_sha256": digest,
-            "best_epoch": self.train_result_.best_epoch if hasattr(self, "train_result_") else None,
+            "models": list(self.models_),
+            "rows": int(self.n_rows_),
+            "weights_sha256": hashlib.sha256(blob).hexdigest(),
         }
         with atomic_open(os.path.join(path, META_FILE), "w") as fh:
             json.dump(meta, fh, indent=2)
@@ -303,9 +578,10 @@ class NeuralEstimator(Estimator):
         Raises
         ------
         CheckpointError
-            Missing or unreadable files, a weights file whose hash differs
-            from the one recorded, weights that do not fit the recorded
-            model, or a graph / data whose variables, edges or states differ.
+            Missing or unreadable files, a model saved in another format, a
+            weights file whose hash differs from the one recorded, weights
+            that do not fit the recorded model, or a graph / data whose
+            variables, edges or states differ.
         """
         path = os.fspath(path)
         meta_path, weights_path = os.path.join(path, META_FILE), os.path.join(path, WEIGHTS_FILE)
@@ -317,8 +593,13 @@ class NeuralEstimator(Estimator):
                 meta = json.load(fh)
         except (OSError, ValueError) as exc:
             raise CheckpointError(f"{meta_path}: cannot read the model description ({exc})") from None
-        if not isinstance(meta, dict) or meta.get("format") != "intervgnn-neural-1":
+        if not isinstance(meta, dict) or not str(meta.get("format", "")).startswith("intervgnn-neural-"):
             raise CheckpointError(f"{meta_path}: not an intervgnn neural model description")
+        if meta.get("format") != CHECKPOINT_FORMAT:
+            raise CheckpointError(
+                f"{meta_path}: saved in format '{meta.get('format')}' by an earlier version of intervgnn; "
+                f"this version reads '{CHECKPOINT_FORMAT}'. Fit the model again."
+            )
         with open(weights_path, "rb") as fh:
             blob = fh.read()
         if hashlib.sha256(blob).hexdigest() != meta.get("weights_sha256"):
@@ -329,6 +610,8 @@ class NeuralEstimator(Estimator):
             )
             states = {v: tuple(s) for v, s in meta["states"].items()}
             settings = dict(meta["settings"])
+            keys = [str(k) for k in meta["models"]]
+            rows = int(meta["rows"])
         except Exception as exc:  # malformed description
             raise CheckpointError(f"{meta_path}: malformed model description ({exc})") from None
         if graph is not None:
@@ -337,20 +620,36 @@ class NeuralEstimator(Estimator):
             _check_same_states(states, table, path)
         try:
             est = cls(**settings)
-        except TypeError as exc:
-            raise CheckpointError(f"{meta_path}: unknown settings ({exc})") from None
-        est.graph_ = saved_graph
-        est.states_ = states
-        est.model_ = est._build(saved_graph, states)
-        import io
-
+            est._check_settings()
+        except Exception as exc:
+            raise CheckpointError(f"{meta_path}: unusable settings ({exc})") from None
         try:
-            state = torch.load(io.BytesIO(blob), map_location="cpu", weights_only=True)
-            est.model_.load_state_dict(state)
+            tensors = torch.load(io.BytesIO(blob), map_location="cpu", weights_only=True)
+            est.graph_, est.states_, est.n_rows_ = saved_graph, states, rows
+            est.models_ = {}
+            for i, key in enumerate(keys):
+                model = est._build(saved_graph, states, 0).to("cpu")
+                prefix = f"{key}."
+                model.load_state_dict({k[len(prefix):]: v for k, v in tensors.items() if k.startswith(prefix)})
+                est.models_[key] = model.eval()
+            groups = est._groups()
+            cells = FamilyCells(
+                parents=est._parents(), cards=[len(states[v]) for v in saved_graph.nodes],
+                node=tensors["cells.node"].numpy(), cfg=tensors["cells.cfg"].numpy(),
+                state=tensors["cells.state"].numpy(), count=tensors["cells.count"].numpy(),
+                fold_count=tensors["cells.fold_count"].numpy(), n_rows=rows,
+            )
+            for i, g in enumerate(groups):
+                cells.groups.append(GroupCells(
+                    tuple(g), tensors[f"group{i}.cell"].numpy(), tensors[f"group{i}.count"].numpy(),
+                    tensors[f"group{i}.fold_count"].numpy(),
+                ))
+            est.cells_ = cells
+            est.train_results_ = {}
         except Exception as exc:
             raise CheckpointError(f"{weights_path}: the weights do not fit the recorded model ({type(exc).__name__})") from None
-        est.model_.eval()
-        est._prepare_answers()
+        with torch_threads(est.threads):
+            est._prepare_answers()
         return est
 
 

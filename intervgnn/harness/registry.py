@@ -72,8 +72,13 @@ ESTIMATORS = {
     "neural_ablation": _neural_ablation,
 }
 
-#: settings the harness sets itself
-_RESERVED = {"seed", "progress", "device"}
+#: settings the harness sets itself, and where they come from
+_RESERVED = {
+    "seed": "seeds come from 'seeds'",
+    "progress": "the sweep shows one progress bar",
+    "device": "runs use the CPU",
+    "threads": "each run uses one thread; run several at once with 'workers'",
+}
 
 
 def check_settings(where: str, kind: str, settings: dict) -> None:
@@ -86,7 +91,7 @@ def check_settings(where: str, kind: str, settings: dict) -> None:
         if not isinstance(key, str):
             raise ConfigError(f"{where}: setting names must be text, got {key!r}")
         if key in _RESERVED:
-            raise ConfigError(f"{where}: '{key}' is set by the harness (seeds come from 'seeds')")
+            raise ConfigError(f"{where}: '{key}' is set by the harness ({_RESERVED[key]})")
         if key not in params:
             raise ConfigError(f"{where}: unknown setting '{key}'{did_you_mean(key, params)}; settings are: {', '.join(params)}")
         default = params[key].default

@@ -1,19 +1,20 @@
-"""Answering queries with a trained VGAE: tabulated CPTs (exact mode) or ancestral sampling."""
+"""Answering queries with trained VGAEs: tabulated conditionals (exact mode) or ancestral sampling."""
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 
 import numpy as np
 import torch
 
 from ..errors import ZeroEvidenceError
 from ..graph import CausalGraph
-from .vgae import InterventionalVGAE
+from .vgae import InterventionalVGAE, family_edges
 
-__all__ = ["tabulate_cpts", "table_rows_needed", "monte_carlo", "latent_name"]
+__all__ = ["conditionals", "tabulate_cpts", "table_rows_needed", "monte_carlo", "latent_name"]
 
-_CHUNK_ROWS = 16384
+#: decoder items per pass (bounds memory whatever the network)
+_CHUNK_ITEMS = 16384
 
 
 def latent_name(group: int) -> str:
@@ -38,6 +39,54 @@ def table_rows_needed(graph: CausalGraph, cards: Mapping[str, int], u_states: in
 
 
 @torch.no_grad()
+def conditionals(
+    model: InterventionalVGAE,
+    parents: Sequence[Sequence[int]],
+    node: np.ndarray,
+    cfg: np.ndarray,
+    samples: int = 64,
+    seed: int = 0,
+    u: np.ndarray | None = None,
+) -> np.ndarray:
+    r"""The decoder's conditional of each item, z integrated out over the prior.
+
+    :math:`p(x \mid \mathrm{pa}) = \frac{1}{S} \sum_s \mathrm{softmax}(\mathrm{logits}(\mathrm{pa}, z_s))`,
+    :math:`z_s \sim N(0, I)`, for items given as (node index, parent
+    configuration in mixed radix over ``parents[node]``), optionally with the
+    state ``u`` of the node's component latent (-1: none).
+
+    Returns
+    -------
+    numpy.ndarray
+        ``[D, K_max]`` float64 probabilities (zero beyond each node's states).
+    """
+    model.eval()
+    node = np.asarray(node, dtype=np.int64)
+    cfg = np.asarray(cfg, dtype=np.int64)
+    d = node.size
+    out = np.zeros((d, max(model.cards)))
+    if d == 0:
+        return out
+    gen = torch.Generator().manual_seed(int(seed))
+    dev = model.state_emb.weight.device
+    values = model.values()
+    per = max(1, _CHUNK_ITEMS // max(samples, 1))
+    for start in range(0, d, per):
+        sl = slice(start, min(d, start + per))
+        b = sl.stop - sl.start
+        rep_node = np.repeat(node[sl], samples)
+        rep_cfg = np.repeat(cfg[sl], samples)
+        edges = torch.as_tensor(family_edges(parents, model.cards, rep_node, rep_cfg, model.num_values), device=dev)
+        z = torch.randn(b * samples, model.z_dim, generator=gen).to(dev)
+        uu = None if u is None else torch.as_tensor(np.repeat(np.asarray(u)[sl], samples), device=dev)
+        logits = model.decode_families(torch.as_tensor(rep_node, device=dev), z, edges, uu, values)
+        p = torch.softmax(logits.double(), dim=-1).view(b, samples, -1).mean(1)
+        out[sl] = p.cpu().numpy()
+    out /= out.sum(axis=1, keepdims=True)
+    return out
+
+
+@torch.no_grad()
 def tabulate_cpts(
     model: InterventionalVGAE,
     graph: CausalGraph,
@@ -47,82 +96,64 @@ def tabulate_cpts(
 ) -> tuple[CausalGraph, dict[str, int], dict[str, np.ndarray]]:
     r"""Each node's conditional from the decoder, for every parent configuration.
 
-    :math:`p(x_i \mid \mathrm{pa}) = \frac{1}{S} \sum_s \mathrm{softmax}(\mathrm{logits}_i(\mathrm{pa}, z_s))`
-    with :math:`z_s` drawn from the prior (Monte Carlo integration of z).
-    A group latent :math:`u_g` (discrete, with a learned prior) is kept as a
-    node: a root variable with the prior as its CPT and a parent of every
-    member, so the result is an ordinary discrete network over the observed
-    variables and these latent nodes, ready for the exact engine (an
-    intervention on a member cuts its edge from the latent like any parent
-    edge).
+    z is integrated out by Monte Carlo over the prior (see
+    :func:`conditionals`). A group latent :math:`u_g` (discrete, with a
+    learned prior) is kept as a node: a root variable with the prior as its
+    CPT and a parent of every member, so the result is an ordinary discrete
+    network over the observed variables and these latent nodes, ready for
+    the exact engine (an intervention on a member cuts its edge from the
+    latent like any parent edge).
 
     Returns
     -------
     (graph, cards, cpts)
         The (possibly augmented) graph, the number of states of every node,
-        and CPTs with axes ``(*parents, v)``.
+        and CPTs with axes ``(*parents, v)`` (members: ``(*parents, latent, v)``).
     """
-    model.eval()
-    gen = torch.Generator().manual_seed(int(seed))
     nodes = graph.nodes
-    col = {v: j for j, v in enumerate(nodes)}
-    dev = model.state_emb.weight.device
+    index = {v: i for i, v in enumerate(nodes)}
+    parents = [[index[p] for p in graph.parents(v)] for v in nodes]
     groups = model.groups
     group_of = {nodes[i]: gi for gi, g in enumerate(groups) for i in g}
-    n_states = model.u_states if groups else 1
-    all_cards = dict(cards)
-    cpts: dict[str, np.ndarray] = {}
+    n_u = model.u_states if groups else 1
+    item_node, item_cfg, item_u = [], [], []
+    shapes = {}
     for v in nodes:
-        pa = list(graph.parents(v))
-        pcards = [cards[p] for p in pa]
-        n_cfg = int(np.prod(pcards)) if pa else 1
-        grid = np.zeros((n_cfg, len(nodes)), dtype=np.int64)
-        if pa:
-            mesh = np.stack(np.unravel_index(np.arange(n_cfg), pcards), axis=1)
-            for k, p in enumerate(pa):
-                grid[:, col[p]] = mesh[:, k]
-        g = group_of.get(v)
-        n_u = n_states if g is not None else 1
-        probs = np.zeros((n_cfg, n_u, cards[v]))
-        per = samples * n_u
-        reps = max(1, _CHUNK_ROWS // max(per, 1))
-        for start in range(0, n_cfg, reps):
-            block = torch.as_tensor(grid[start : start + reps], device=dev)
-            b = block.size(0)
-            codes = block.repeat_interleave(per, dim=0)
-            z = model.prior_sample(codes.size(0), gen)
-            u = None
-            if groups:
-                # row r has every group latent in state (r // samples) % n_u (v hears only its own)
-                which = (torch.arange(codes.size(0), device=dev) // samples) % n_u
-                u = which.unsqueeze(-1).expand(-1, len(groups)).contiguous()
-            logits = model.decode(codes, z, None, u)[:, col[v], : cards[v]]
-            p = torch.softmax(logits, dim=-1).view(b, n_u, samples, -1).mean(2)
-            probs[start : start + b] = p.double().cpu().numpy()
-        probs /= probs.sum(axis=-1, keepdims=True)
-        if g is None:
-            cpts[v] = probs.reshape(pcards + [cards[v]])
-        else:
-            cpts[v] = probs.reshape(pcards + [n_u, cards[v]])
+        pcards = [cards[p] for p in graph.parents(v)]
+        n_cfg = int(np.prod(pcards)) if pcards else 1
+        us = n_u if v in group_of else 1
+        item_node.append(np.full(n_cfg * us, index[v]))
+        item_cfg.append(np.repeat(np.arange(n_cfg), us))
+        item_u.append(np.tile(np.arange(us), n_cfg) if v in group_of else np.full(n_cfg, -1))
+        shapes[v] = pcards + ([n_u] if v in group_of else []) + [cards[v]]
+    probs = conditionals(
+        model, parents, np.concatenate(item_node), np.concatenate(item_cfg), samples, seed,
+        np.concatenate(item_u) if groups else None,
+    )
+    cpts: dict[str, np.ndarray] = {}
+    start = 0
+    for v in nodes:
+        size = int(np.prod(shapes[v][:-1]))
+        block = probs[start : start + size, : cards[v]]
+        cpts[v] = (block / block.sum(axis=1, keepdims=True)).reshape(shapes[v])
+        start += size
+    all_cards = dict(cards)
     if not groups:
         return graph, all_cards, cpts
-    edges = list(graph.edges)
+    latents = [latent_name(i) for i in range(len(groups))]
     for gi, g in enumerate(groups):
-        name = latent_name(gi)
-        all_cards[name] = n_states
+        all_cards[latents[gi]] = n_u
         prior = torch.softmax(model.u_prior.detach().cpu().double()[gi], dim=-1).numpy()
-        cpts[name] = prior / prior.sum()
-        edges.extend((name, nodes[i]) for i in g)
-    # latent nodes first, then the observed ones; a member's parents are (*its parents, its latent)
-    ordered = [(p, c) for p, c in edges if p not in {latent_name(i) for i in range(len(groups))}]
-    latent_edges = [(p, c) for p, c in edges if p in {latent_name(i) for i in range(len(groups))}]
-    aug = CausalGraph(ordered + latent_edges, nodes=[latent_name(i) for i in range(len(groups))] + list(nodes))
+        cpts[latents[gi]] = prior / prior.sum()
+    # latent nodes first; a member's parents are (*its parents, its latent)
+    edges = list(graph.edges) + [(latents[gi], nodes[i]) for gi, g in enumerate(groups) for i in g]
+    aug = CausalGraph(edges, nodes=latents + list(nodes))
     return aug, all_cards, cpts
 
 
 @torch.no_grad()
 def monte_carlo(
-    model: InterventionalVGAE,
+    conditional: Callable[[str, np.ndarray], np.ndarray],
     graph: CausalGraph,
     cards: Mapping[str, int],
     targets: Sequence[str],
@@ -134,10 +165,12 @@ def monte_carlo(
 ) -> np.ndarray:
     """P(targets | do, given) by ancestral sampling through the mutilated graph.
 
-    z (and every group's u) is drawn from the prior; the graph is walked
-    generation by generation, vectorised over ``samples`` rows. Intervened
-    nodes are set, and their parent and hidden-cause edges cut when ``cut``;
-    evidence nodes are set and weight each sample by their likelihood
+    ``conditional(v, codes)`` gives node ``v``'s distribution ``[S, k_v]``
+    for the sampled rows ``codes [S, N]`` (its parents' columns are filled
+    in when it is called; it may draw its own latent noise). The graph is
+    walked generation by generation, vectorised over ``samples`` rows.
+    Intervened nodes are set (their parents are then irrelevant: the cut);
+    evidence nodes are set and weight each sample by their probability
     (likelihood weighting). With ``cut=False`` the intervened nodes are
     treated as evidence (the ablation).
 
@@ -146,47 +179,36 @@ def monte_carlo(
     ZeroEvidenceError
         If every sample has weight zero.
     """
-    model.eval()
-    gen = torch.Generator().manual_seed(int(seed))
+    rng = np.random.default_rng(int(seed))
     nodes = graph.nodes
     col = {v: j for j, v in enumerate(nodes)}
-    dev = model.state_emb.weight.device
     evidence = dict(given)
     fixed = dict(do)
     if not cut:
         evidence.update(fixed)
         fixed = {}
-    codes = torch.zeros(samples, len(nodes), dtype=torch.long, device=dev)
-    mask = torch.zeros(samples, len(nodes), dtype=torch.bool, device=dev)
-    for v, c in fixed.items():
+    codes = np.zeros((samples, len(nodes)), dtype=np.int64)
+    for v, c in {**fixed, **evidence}.items():
         codes[:, col[v]] = c
-        mask[:, col[v]] = True
-    for v, c in evidence.items():
-        codes[:, col[v]] = c
-    log_w = torch.zeros(samples, dtype=torch.float64, device=dev)
-    z = model.prior_sample(samples, gen)
-    u = model.prior_sample_u(samples, gen)
+    log_w = np.zeros(samples)
     for generation in graph.generations():
-        todo = [v for v in generation if v not in fixed]
-        if not todo:
-            continue
-        logits = model.decode(codes, z, mask if cut else None, u)
-        for v in todo:
-            j = col[v]
-            lp = torch.log_softmax(logits[:, j, : cards[v]], dim=-1)
+        for v in generation:
+            if v in fixed:
+                continue
+            p = conditional(v, codes)
             if v in evidence:
-                log_w += lp[:, evidence[v]].double()
+                with np.errstate(divide="ignore"):
+                    log_w += np.log(p[:, evidence[v]])
             else:
-                r = torch.rand(samples, generator=gen).to(dev)
-                cdf = lp.exp().cumsum(-1)
-                codes[:, j] = torch.searchsorted(cdf, r.unsqueeze(-1).to(cdf.dtype)).squeeze(-1).clamp_max(cards[v] - 1)
-    if torch.isneginf(log_w).all():
+                cdf = np.cumsum(p, axis=1)
+                r = rng.random(samples)[:, None] * cdf[:, -1:]
+                codes[:, col[v]] = np.minimum((r > cdf).sum(axis=1), cards[v] - 1)
+    if np.isneginf(log_w).all():
         raise ZeroEvidenceError("the evidence has probability zero under the learned model")
-    w = torch.exp(log_w - log_w.max())
+    w = np.exp(log_w - log_w.max())
     shape = [cards[t] for t in targets]
-    flat = torch.zeros(samples, dtype=torch.long, device=dev)
+    flat = np.zeros(samples, dtype=np.int64)
     for t in targets:
         flat = flat * cards[t] + codes[:, col[t]]
-    out = torch.zeros(int(np.prod(shape)), dtype=torch.float64, device=dev).index_add_(0, flat, w)
-    out = out / out.sum()
-    return out.cpu().numpy().reshape(shape)
+    out = np.bincount(flat, weights=w, minlength=int(np.prod(shape)))
+    return (out / out.sum()).reshape(shape)

@@ -1,225 +1,158 @@
-"""Training the interventional VGAE: Adam, minibatches over rows, early stopping."""
+"""Training the interventional VGAE on sufficient statistics: full-batch Adam over distinct family configurations."""
 
 from __future__ import annotations
 
-import copy
 import math
+import time
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
 import torch
 
-from .vgae import InterventionalVGAE, elbo_terms
+from .stats import FamilyCells
+from .vgae import FamilyBatch, InterventionalVGAE, family_elbo
 
-__all__ = ["TrainResult", "train_vgae"]
+__all__ = ["TrainResult", "train_vgae", "init_output_bias"]
 
 
 @dataclass
 class TrainResult:
-    """What training did: per-epoch history and the epoch whose weights were kept."""
+    """What training did: the ELBO per row at each step, the scored checkpoints (step, score), the time taken."""
 
-    history: list[dict] = field(default_factory=list)
-    best_epoch: int = 0
-    best_val_elbo: float = -math.inf
+    history: list[float] = field(default_factory=list)
+    checkpoints: list[tuple[int, float]] = field(default_factory=list)
+    steps: int = 0
+    rows: float = 0.0
+    cells: int = 0
     seconds: float = 0.0
 
-
-def _validation(model, codes, mask, regime_aware, use_cut) -> float:
-    """Mean ELBO per held-out row."""
-    model.eval()
-    total = 0.0
-    with torch.no_grad():
-        for start in range(0, codes.size(0), 4096):
-            c = codes[start : start + 4096]
-            m = mask[start : start + 4096]
-            logits, lat = model(c, m if use_cut else None)
-            elbo, _, _ = elbo_terms(logits, c, lat, m, regime_aware)
-            total += float(elbo.sum())
-    return total / max(codes.size(0), 1)
+    @property
+    def final_elbo(self) -> float:
+        """Mean ELBO per row at the last step (nan before any step)."""
+        return self.history[-1] if self.history else math.nan
 
 
-class _Average:
-    """Exponential moving average of a model's floating-point weights (Polyak averaging)."""
+@torch.no_grad()
+def init_output_bias(model: InterventionalVGAE, cells: FamilyCells, weight: np.ndarray) -> None:
+    """Set each node's output bias to the log of its smoothed marginal state frequencies in ``weight``.
 
-    def __init__(self, model: torch.nn.Module, decay: float):
-        self.decay = decay
-        self.params = [p for p in model.parameters()]
-        self.shadow = [p.detach().clone() for p in self.params]
-
-    @torch.no_grad()
-    def update(self) -> None:
-        for s, p in zip(self.shadow, self.params):
-            s.lerp_(p.detach(), 1.0 - self.decay)
-
-    @torch.no_grad()
-    def swap(self) -> None:
-        """Exchange the live weights and the averaged ones."""
-        for s, p in zip(self.shadow, self.params):
-            tmp = p.detach().clone()
-            p.copy_(s)
-            s.copy_(tmp)
+    A data-dependent start (common practice, no source): the model begins at
+    the independence fit and training only has to learn how parents move it.
+    """
+    counts = np.zeros(model.num_values)
+    offsets = model.offsets.cpu().numpy()
+    np.add.at(counts, offsets[cells.node] + cells.state, weight)
+    bias = model.out_bias.weight
+    for v, k in enumerate(model.cards):
+        c = counts[offsets[v] : offsets[v] + k] + 1.0
+        lp = np.log(c / c.sum())
+        bias[model.state_index[v, :k], 0] = torch.as_tensor(lp - lp.mean(), dtype=bias.dtype, device=bias.device)
 
 
-def _epoch(model, opt, codes, mask, batch_size, gen, regime_aware, use_cut, average=None) -> float:
-    """One pass over the rows in a seeded random order; returns the mean training ELBO."""
-    model.train()
-    perm = torch.randperm(codes.size(0), generator=gen).to(codes.device)
-    run = 0.0
-    for start in range(0, codes.size(0), batch_size):
-        b = perm[start : start + batch_size]
-        c, m = codes[b], mask[b]
-        logits, lat = model(c, m if use_cut else None)
-        elbo, _, _ = elbo_terms(logits, c, lat, m, regime_aware)
-        loss = -elbo.mean()
-        opt.zero_grad(set_to_none=True)
-        loss.backward()
-        opt.step()
-        if average is not None:
-            average.update()
-        run += float(elbo.sum().detach())
-    return run / max(codes.size(0), 1)
+def _adam(params, lr: float, weight_decay: float) -> torch.optim.Optimizer:
+    try:
+        return torch.optim.Adam(params, lr=lr, weight_decay=weight_decay, fused=True)
+    except (RuntimeError, TypeError, ValueError):  # fused kernels are missing on some builds and devices
+        return torch.optim.Adam(params, lr=lr, weight_decay=weight_decay)
 
 
 def train_vgae(
     model: InterventionalVGAE,
-    codes: np.ndarray,
-    intervened: np.ndarray,
+    batch: FamilyBatch,
+    weight: np.ndarray,
+    group_weight: Sequence[np.ndarray] = (),
     *,
-    epochs: int = 300,
-    batch_size: int = 512,
+    steps: int = 100,
     lr: float = 1e-2,
     weight_decay: float = 0.0,
-    val_fraction: float = 0.1,
-    patience: int = 30,
-    lr_patience: int | None = 5,
-    refit: bool = True,
-    average: float | None = 0.98,
     seed: int = 0,
-    regime_aware: bool = True,
-    use_cut: bool = True,
-    device: str | torch.device = "cpu",
-    progress: bool = False,
+    rows: float | None = None,
+    keep_best_every: int = 0,
+    on_step: Callable[[int, float], None] | None = None,
 ) -> TrainResult:
-    """Fit ``model`` by maximising the intervention-aware ELBO with Adam on minibatches of rows.
+    """Maximise the intervention-aware ELBO of count-weighted cells with full-batch Adam.
 
-    Phase one trains on ``1 - val_fraction`` of the rows, halving the
-    learning rate after ``lr_patience`` epochs without a better held-out
-    ELBO and stopping after ``patience`` such epochs. With ``refit`` the
-    model is then trained again from its initial weights on *all* rows for
-    the best number of epochs, with the learning rate halved at the same
-    epochs (so no row is lost to the held-out split); otherwise the weights
-    of the best held-out epoch are kept.
+    Each step evaluates the ELBO of *all* rows at once through their
+    distinct family configurations (:func:`~intervgnn.models.vgae.family_elbo`),
+    so a step costs the same at a thousand or ten million rows. The learning
+    rate follows a cosine from ``lr`` to zero over ``steps`` (Loshchilov &
+    Hutter 2017, from memory), so the end point is the result. Deterministic
+    for a given seed on the CPU.
 
     Parameters
     ----------
     model : InterventionalVGAE
         Trained in place (its initial weights are expected to be seeded by the caller).
-    codes, intervened : numpy.ndarray
-        Rows ``[n, N]`` of state codes and the per-row regime mask.
-    epochs, batch_size, lr, weight_decay : training settings (Adam).
-    val_fraction : float
-        Share of rows held out for early stopping (0 trains for ``epochs`` on all rows).
-    patience : int
-        Stop after this many epochs without a better held-out ELBO.
-    lr_patience : int or None
-        Halve the learning rate after this many epochs without a better
-        held-out ELBO (None: constant learning rate).
-    refit : bool
-        Retrain on all rows for the best number of epochs (see above).
-    average : float or None
-        Decay of an exponential moving average of the weights, updated after
-        every step; the averaged weights are the ones validated and kept
-        (None: the raw weights).
+    batch : FamilyBatch
+        The cells laid out for ``model``.
+    weight : numpy.ndarray
+        ``[C]`` rows per cell (e.g. the rows outside one fold).
+    group_weight : sequence of numpy.ndarray
+        Per confounded component, rows per configuration.
+    steps, lr, weight_decay : training settings (Adam).
     seed : int
-        Seeds the split, the batch order and the reparameterisation noise.
-    regime_aware : bool
-        False gives the regime-blind ELBO (intervened nodes counted as if observed).
-    use_cut : bool
-        False passes no intervened mask to the layers (the ablation).
-    device : str or torch.device
-        Where to train (CPU by default; never required).
-    progress : bool
-        Show a tqdm bar with epoch, ELBO and held-out ELBO.
+        Seeds the reparameterisation noise (a generator of its own, so
+        models trained side by side in threads repeat exactly).
+    rows : float, optional
+        Number of rows behind ``weight``, to report the ELBO per row.
+    keep_best_every : int
+        If above 0: every this many steps (and at the end) score the weights
+        by the rows' log-likelihood under the decoder with z at its prior
+        mean (deterministic, see :func:`~intervgnn.models.vgae.family_elbo`)
+        and keep the best-scoring weights, not simply the last. A guard for
+        mixtures, which can drift from a good fit into a degenerate one.
+    on_step : callable, optional
+        Called as ``on_step(step, elbo_per_row)`` after each step (progress bars).
+
+    Returns
+    -------
+    TrainResult
     """
-    import time
-
     t0 = time.perf_counter()
-    torch.manual_seed(int(seed) + 1)  # reparameterisation noise
-    rng = np.random.default_rng(seed)
-    n = codes.shape[0]
-    n_val = min(int(round(val_fraction * n)), n - 1) if n >= 2 and val_fraction > 0 else 0
-    if val_fraction > 0 and n >= 2:
-        n_val = max(n_val, 1)
-    order = rng.permutation(n)
-    dev = torch.device(device)
-    model.to(dev)
-    c_all = torch.as_tensor(np.array(codes, dtype=np.int64), device=dev)
-    m_all = torch.as_tensor(np.array(intervened, dtype=bool), device=dev)
-    val_idx = torch.as_tensor(order[:n_val], device=dev)
-    tr_idx = torch.as_tensor(order[n_val:], device=dev)
-    c_tr, m_tr, c_va, m_va = c_all[tr_idx], m_all[tr_idx], c_all[val_idx], m_all[val_idx]
-    init_state = copy.deepcopy(model.state_dict())
-    result = TrainResult()
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
+    dev = batch.node.device
+    w = torch.as_tensor(weight, dtype=torch.float32, device=dev)
+    gw = [torch.as_tensor(g, dtype=torch.float32, device=dev) for g in group_weight]
+    # the loss is the ELBO per counted family term (its scale, and so the step sizes, do not grow with
+    # the rows); the history reports it per row
+    scale = max(float(np.asarray(weight).sum()), 1.0)
+    per_row = float(rows) if rows else scale
+    result = TrainResult(rows=per_row, cells=int(np.count_nonzero(weight)))
+    gen = torch.Generator(device=dev).manual_seed(int(seed))
+    params = list(model.parameters())
+    opt = _adam(params, lr, weight_decay)
+    best_score, best_weights = -math.inf, None
 
-        bar = tqdm(total=epochs, desc="training", unit="epoch", leave=False)
-    gen = torch.Generator(device="cpu").manual_seed(int(seed))
-    opt = torch.optim.Adam(model.parameters(), lr=lr, weight_decay=weight_decay)
-    best_state = copy.deepcopy(model.state_dict())
-    decays: list[int] = []  # epochs after which the learning rate was halved
-    stale = stale_lr = 0
-    avg = _Average(model, average) if average else None
-    for epoch in range(1, epochs + 1):
-        train_elbo = _epoch(model, opt, c_tr, m_tr, batch_size, gen, regime_aware, use_cut, avg)
-        if avg is not None:
-            avg.swap()
-        val_elbo = _validation(model, c_va, m_va, regime_aware, use_cut) if n_val else train_elbo
-        result.history.append({"phase": "select", "epoch": epoch, "elbo": train_elbo, "val_elbo": val_elbo})
-        improved = val_elbo > result.best_val_elbo + 1e-6 or not n_val
-        if improved:
-            best_state = copy.deepcopy(model.state_dict())
-        if avg is not None:
-            avg.swap()
-        if improved:
-            result.best_val_elbo, result.best_epoch = val_elbo, epoch
-            stale = stale_lr = 0
-        else:
-            stale += 1
-            stale_lr += 1
-            if lr_patience is not None and stale_lr >= lr_patience:
-                for group in opt.param_groups:
-                    group["lr"] *= 0.5
-                decays.append(epoch)
-                stale_lr = 0
-        if bar is not None:
-            bar.set_postfix(elbo=f"{train_elbo:.3f}", val=f"{val_elbo:.3f}")
-            bar.update(1)
-        if stale >= patience:
-            break
-    if refit and n_val:
-        model.load_state_dict(init_state)
-        opt = torch.optim.Adam(model.parameters(), lr=lr, weight_decay=weight_decay)
-        if bar is not None:
-            bar.reset(total=result.best_epoch)
-            bar.set_description("refit on all rows")
-        avg = _Average(model, average) if average else None
-        for epoch in range(1, result.best_epoch + 1):
-            train_elbo = _epoch(model, opt, c_all, m_all, batch_size, gen, regime_aware, use_cut, avg)
-            result.history.append({"phase": "refit", "epoch": epoch, "elbo": train_elbo, "val_elbo": None})
-            if epoch in decays:
-                for group in opt.param_groups:
-                    group["lr"] *= 0.5
-            if bar is not None:
-                bar.set_postfix(elbo=f"{train_elbo:.3f}")
-                bar.update(1)
-        if avg is not None:
-            avg.swap()
-    else:
-        model.load_state_dict(best_state)
-    if bar is not None:
-        bar.close()
+    def checkpoint(step: int) -> None:
+        nonlocal best_score, best_weights
+        model.eval()
+        with torch.no_grad():
+            score = float(family_elbo(model, batch, w, gw, prior_mean=True)) / per_row
+        model.train()
+        result.checkpoints.append((step, score))
+        if score > best_score:
+            best_score, best_weights = score, [p.detach().clone() for p in params]
+
+    model.train()
+    for step in range(1, steps + 1):
+        for group in opt.param_groups:
+            group["lr"] = lr * 0.5 * (1.0 + math.cos(math.pi * (step - 1) / steps))
+        elbo = family_elbo(model, batch, w, gw, gen)
+        loss = -elbo / scale
+        opt.zero_grad(set_to_none=True)
+        loss.backward()
+        opt.step()
+        value = float(elbo.detach()) / per_row
+        result.history.append(value)
+        if keep_best_every and (step % keep_best_every == 0 or step == steps):
+            checkpoint(step)
+        if on_step is not None:
+            on_step(step, value)
+    if best_weights is not None:
+        with torch.no_grad():
+            for p, keep in zip(params, best_weights):
+                p.copy_(keep)
     model.eval()
+    result.steps = steps
     result.seconds = time.perf_counter() - t0
     return result
