@@ -37,7 +37,7 @@ from .identify import identify  # the function (it shadows the subpackage's name
 from .table import Table
 from .userdata import GraphSpec, load_graph, read_csv
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
 
 __all__ = [
     "__version__",

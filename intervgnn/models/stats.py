@@ -29,6 +29,8 @@ __all__ = ["FamilyCells", "GroupCells", "count_cells", "config_index", "MAX_FAMI
 
 #: largest (parent configurations x states) of one family that can be numbered in int64
 MAX_FAMILY_CELLS = 2**62
+#: families with at most this many possible cells are counted with a dense bincount
+_DENSE_CELLS = 2**22
 
 
 def config_index(codes: np.ndarray, cols: Sequence[int], cards: Sequence[int]) -> np.ndarray:
@@ -185,7 +187,10 @@ def count_cells(
     """
     codes = np.asarray(codes)
     n, num_nodes = codes.shape
-    use = ~np.asarray(intervened, dtype=bool) if regime_aware else np.ones((n, num_nodes), dtype=bool)
+    columns = np.ascontiguousarray(codes.T)  # one contiguous array per variable: the loops below read columns
+    use = (~np.asarray(intervened, dtype=bool)).T if regime_aware else np.ones((num_nodes, n), dtype=bool)
+    folds = None if folds is None else np.asarray(folds, dtype=np.int64)
+    k_folds = max(int(num_folds), 1) if folds is not None else 1
     in_group = {i for g in groups for i in g}
     nodes, cfgs, states, counts, folded = [], [], [], [], []
     row_cell: dict[int, np.ndarray] = {}
@@ -194,19 +199,37 @@ def count_cells(
         pa = list(parents[v])
         k = int(cards[v])
         n_cfg = int(np.prod([cards[p] for p in pa], dtype=object)) if pa else 1
-        keep = use[:, v]
         if n_cfg * k >= MAX_FAMILY_CELLS:
             raise DataError(
                 f"node {v} has {n_cfg} parent configurations; families beyond {MAX_FAMILY_CELLS} cells cannot be counted"
             )
-        key = config_index(codes, pa, [cards[p] for p in pa]) * k + codes[:, v]
-        uniq, inverse = np.unique(key[keep], return_inverse=True)
+        keep = use[v]
+        every = bool(keep.all())
+        key = np.zeros(n, dtype=np.int64)
+        for p in pa:
+            key *= int(cards[p])
+            key += columns[p]
+        key *= k
+        key += columns[v]
+        if not every:
+            key = key[keep]
+        if n_cfg * k <= _DENSE_CELLS:  # counting by bincount is linear in the rows; np.unique sorts them
+            seen = np.flatnonzero(np.bincount(key, minlength=n_cfg * k))
+            index = np.full(n_cfg * k, -1, dtype=np.int64)
+            index[seen] = np.arange(seen.size)
+            uniq, inverse = seen, index[key]
+        else:
+            uniq, inverse = np.unique(key, return_inverse=True)
+            inverse = inverse.reshape(-1)
         cfg, state = np.divmod(uniq, k)
-        inverse = inverse.reshape(-1)
         m = len(cfg)
-        counts.append(np.bincount(inverse, minlength=m).astype(np.float64))
-        if folds is not None:
-            folded.append(np.stack([np.bincount(inverse[folds[keep] == f], minlength=m) for f in range(num_folds)]).astype(np.float64))
+        if folds is None:
+            counts.append(np.bincount(inverse, minlength=m).astype(np.float64))
+        else:  # all folds in one pass: cell-major, fold-minor
+            by_fold = np.bincount(inverse * k_folds + (folds if every else folds[keep]), minlength=m * k_folds)
+            by_fold = by_fold.reshape(m, k_folds).T.astype(np.float64)
+            folded.append(by_fold)
+            counts.append(by_fold.sum(axis=0))
         nodes.append(np.full(m, v, dtype=np.int64))
         cfgs.append(cfg.astype(np.int64))
         states.append(state.astype(np.int64))
