@@ -350,7 +350,8 @@ class InterventionalVGAE(torch.nn.Module):
         """
         values = self.values() if values is None else values
         t = values.size(0)
-        own = values[self.offsets[node] + state]
+        # an embedding lookup, not advanced indexing: its backward sums in a fixed order (see decode)
+        own = torch.nn.functional.embedding(self.offsets[node] + state, values)
         h = self.encoder(torch.cat([values, own]), edges)[t:]
         mu, logstd = h.split([self.z_dim, self.z_dim], dim=-1)
         return mu, logstd.clamp(_LOGSTD_MIN, _LOGSTD_MAX)
@@ -401,7 +402,8 @@ class InterventionalVGAE(torch.nn.Module):
         else:
             z = mu
         cell = batch.dec_cell
-        logits = self.decode_families(batch.node[cell], z[cell], batch.dec_edges, batch.dec_u, values)
+        z_items = torch.nn.functional.embedding(cell, z)  # a member cell is decoded once per latent state
+        logits = self.decode_families(batch.node[cell], z_items, batch.dec_edges, batch.dec_u, values)
         logp = torch.log_softmax(logits, dim=-1).gather(1, batch.state[cell].unsqueeze(-1)).squeeze(-1)
         return logp, _kl(mu, logstd), mu
 
@@ -441,7 +443,8 @@ def family_elbo(
         per_cell[members] = logp[batch.member_item[members]]
         for cells, gid, w in zip(batch.group_cell, batch.group_id, group_weight):
             took = (cells >= 0).to(per_cell.dtype).unsqueeze(-1)
-            joint = (per_cell[cells.clamp_min(0)] * took).sum(1) + logprior[gid]
+            lookup = torch.nn.functional.embedding(cells.clamp_min(0), per_cell)  # [R, members, S]
+            joint = (lookup * took).sum(1) + logprior[gid]
             total = total + (w * torch.logsumexp(joint, dim=-1)).sum()
     return total
 
