@@ -147,3 +147,14 @@ def test_monte_carlo_mode_with_hidden_causes_agrees_with_exact_mode(front_door_f
     for target, do, given in [("Y", {"X": "a"}, {}), ("Y", {"X": "b"}, {}), ("M", {"X": "a"}, {"Y": "b"})]:
         # 50,000 weighted samples: standard error below 0.005 on these probabilities
         assert total_variation(est.query(target, do=do, given=given), mc.query(target, do=do, given=given)) < 0.02
+
+
+def test_every_member_set_in_every_row():
+    # no row generates X or Y from their mechanisms: the latent model has no
+    # cell to learn from, and the fit must still work (and answer from the rest)
+    net, observed = front_door_world()
+    rows = net.sample(300, do={"X": "a", "Y": "b"}, seed=0).select(observed.nodes)
+    est = NeuralEstimator(seed=0, steps=5, latent_steps=20, unidentified="answer").fit(rows, observed)
+    assert est.cells_.count[est.cells_.node == observed.index("M")].sum() == 300
+    got = est.query("M", do={"X": "a"})
+    assert total_variation(got, net.query("M", do={"X": "a"})) < 0.1

@@ -59,6 +59,9 @@ def test_spec_text_and_label():
     assert s.text == "random:nodes=30,seed=4,states=3-3,concentration=0.5"
     assert parse_random_spec(s.text) == s
     assert random_network(s).name == s.text
+    # the canonical text keeps every digit: it must name the same network
+    fine = parse_random_spec("random:nodes=8,seed=1,concentration=0.1234567,deterministic=0.3333333333")
+    assert parse_random_spec(fine.text) == fine
 
 
 @pytest.mark.parametrize(
@@ -74,6 +77,7 @@ def test_spec_text_and_label():
         ("random:deterministic=1.5", "deterministic must be a share from 0 to 1, got 1.5"),
         ("random:nodes", "expected key=value, got 'nodes'"),
         ("random:seed=-1", "seed must be a whole number"),
+        ("random:parents=6,states=10", r"a CPT could hold 10\^7 = 10000000 entries \(at most 1000000\)"),
     ],
 )
 def test_spec_errors(spec, message):

@@ -29,6 +29,8 @@ RANDOM_PREFIX = "random:"
 #: bump when the drawing procedure changes (a spec then names another network)
 GENERATOR_VERSION = 1
 _MAX_NODES = 1000
+#: largest CPT (entries) a spec may allow
+_MAX_CPT = 10**6
 
 
 @dataclass(frozen=True)
@@ -84,6 +86,12 @@ class RandomSpec:
         d = self.deterministic
         if isinstance(d, bool) or not isinstance(d, (int, float)) or not (0.0 <= d <= 1.0):
             raise UnknownNetworkError(f"random network: deterministic must be a share from 0 to 1, got {d!r}")
+        largest = self.max_states ** (self.parents + 1)
+        if largest > _MAX_CPT:
+            raise UnknownNetworkError(
+                f"random network: a CPT could hold {self.max_states}^{self.parents + 1} = {largest} entries "
+                f"(at most {_MAX_CPT}); lower parents or states"
+            )
 
     @property
     def text(self) -> str:
@@ -95,9 +103,9 @@ class RandomSpec:
         if (self.min_states, self.max_states) != (default.min_states, default.max_states):
             parts.append(f"states={self.min_states}-{self.max_states}")
         if self.concentration != default.concentration:
-            parts.append(f"concentration={self.concentration:g}")
+            parts.append(f"concentration={float(self.concentration)!r}")
         if self.deterministic != default.deterministic:
-            parts.append(f"deterministic={self.deterministic:g}")
+            parts.append(f"deterministic={float(self.deterministic)!r}")
         return RANDOM_PREFIX + ",".join(parts)
 
     @property

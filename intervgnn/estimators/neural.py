@@ -15,7 +15,7 @@ import torch
 
 from .._io import atomic_open, make_folder
 from ..bn.network import CausalNetwork
-from ..errors import CheckpointError, DataError, NotIdentified, QueryError
+from ..errors import CheckpointError, DataError, IntervgnnError, NotIdentified, QueryError
 from ..graph import CausalGraph
 from ..models.answer import conditionals, monte_carlo, table_rows_needed, tabulate_cpts
 from ..models.shrinkage import Mixture, mixture_rows, mixture_weights
@@ -238,7 +238,11 @@ class NeuralEstimator(Estimator):
         return [[index[v] for v in comp] for comp in graph.c_components() if len(comp) > 1]
 
     def _build(self, graph: CausalGraph, states: Mapping[str, tuple[str, ...]], seed: int) -> InterventionalVGAE:
-        torch.manual_seed(int(seed))
+        with torch.random.fork_rng(devices=[]):  # seeded without touching the caller's global generator
+            torch.manual_seed(int(seed))
+            return self._construct(graph, states)
+
+    def _construct(self, graph: CausalGraph, states: Mapping[str, tuple[str, ...]]) -> InterventionalVGAE:
         return InterventionalVGAE(
             [len(states[v]) for v in graph.nodes],
             graph.edge_index,
@@ -272,9 +276,8 @@ class NeuralEstimator(Estimator):
             size = int(np.prod([len(states[p]) for p in graph.parents(v)], dtype=object)) * len(states[v])
             if size >= MAX_FAMILY_CELLS:
                 raise DataError(f"variable '{v}' has {size} (parent configuration, state) pairs; too many to count")
+        self._forget()
         with torch_threads(self.threads):
-            self.graph_ = graph
-            self.states_ = states
             groups = self._groups(graph)
             n = table.n_rows
             folds = np.empty(n, dtype=np.int64)
@@ -294,21 +297,23 @@ class NeuralEstimator(Estimator):
                 from tqdm.auto import tqdm
 
                 bar = tqdm(total=total, desc=f"training {len(plan)} models", unit="step", leave=False)
-            self.models_, self.train_results_ = {}, {}
+            models, results, scores = {}, {}, []
             template = self._build(graph, states, 0) if plan else None
 
             def train(key: str):
                 # a copy of one built model, re-initialised with this model's seed (building a PyG layer
                 # inspects its methods, which costs more than a copy)
                 model = copy.deepcopy(template)
-                torch.manual_seed(_seed(self.seed, 2, plan.index(key)))
-                model.reset_parameters()
+                with torch.random.fork_rng(devices=[]):
+                    torch.manual_seed(_seed(self.seed, 2, plan.index(key)))
+                    model.reset_parameters()
                 if key.startswith("all"):
                     part, weight, group_weight = cells, cells.count, [g.count for g in cells.groups]
-                    steps, lr = self.latent_steps, self.latent_lr
+                    steps, lr, rows = self.latent_steps, self.latent_lr, n
                 else:
                     part = cells.subset(free)
                     weight, group_weight, steps, lr = part.heldout(int(key[4:])), [], self.steps, self.lr
+                    rows = n - int(np.count_nonzero(folds == int(key[4:])))
                 batch = FamilyBatch.from_cells(model, part)
                 init_output_bias(model, part, weight)
 
@@ -320,7 +325,7 @@ class NeuralEstimator(Estimator):
 
                 result = train_vgae(
                     model, batch, weight, group_weight, steps=steps, lr=lr, weight_decay=self.weight_decay,
-                    seed=_seed(self.seed, 3, plan.index(key)), rows=n, on_step=tick,
+                    seed=_seed(self.seed, 3, plan.index(key)), rows=rows, on_step=tick,
                     keep_best_every=100 if key.startswith("all") else 0,
                 )
                 return key, model.to("cpu").eval(), result
@@ -332,19 +337,30 @@ class NeuralEstimator(Estimator):
                     if key.startswith("all"):
                         latent.append((max(score for _, score in result.checkpoints), model, result))
                     else:
-                        self.models_[key], self.train_results_[key] = model, result
+                        models[key], results[key] = model, result
                 if latent:
                     # restarts of a mixture: keep the one whose rows are most likely (a degenerate mixture,
                     # whose latent states all predict alike, scores lower)
-                    self.latent_scores_ = [score for score, _, _ in latent]
-                    _, self.models_["all"], self.train_results_["all"] = max(latent, key=lambda item: item[0])
+                    scores = [score for score, _, _ in latent]
+                    _, models["all"], results["all"] = max(latent, key=lambda item: item[0])
             finally:
                 if bar is not None:
                     bar.close()
-            self.cells_ = cells
-            self.n_rows_ = n
-            self._prepare_answers()
+            # learned state is set only once everything above has succeeded
+            self.graph_, self.states_, self.cells_, self.n_rows_ = graph, states, cells, n
+            self.models_, self.train_results_, self.latent_scores_ = models, results, scores
+            try:
+                self._prepare_answers()
+            except BaseException:
+                self._forget()
+                raise
         return self
+
+    def _forget(self) -> None:
+        """Drop everything a previous fit learned (a new fit starts clean; a failed one leaves nothing)."""
+        for name in ("graph_", "states_", "cells_", "n_rows_", "models_", "train_results_", "latent_scores_",
+                     "mixtures_", "network_", "answer_mode_", "table_rows_", "_count_rows", "_identifications"):
+            self.__dict__.pop(name, None)
 
     # ------------------------------------------------------------ answering
     @property
@@ -471,7 +487,7 @@ class NeuralEstimator(Estimator):
                 cfgs, counts = self._count_rows[v]
                 pos = np.clip(np.searchsorted(cfgs, cfg), 0, max(len(cfgs) - 1, 0))
                 seen = (cfgs[pos] == cfg) if len(cfgs) else np.zeros(s, dtype=bool)
-                rows = np.where(seen[:, None], counts[pos] if len(cfgs) else 0.0, 0.0)
+                rows = np.where(seen[:, None], counts[pos], 0.0) if len(cfgs) else np.zeros((s, cards[v]))
                 return mixture_rows(rows, base, self.mixtures_[v])
             # a member of a confounded component: the latent model, hearing its component's latent
             if state["u"] is None:
@@ -600,8 +616,11 @@ class NeuralEstimator(Estimator):
                 f"{meta_path}: saved in format '{meta.get('format')}' by an earlier version of intervgnn; "
                 f"this version reads '{CHECKPOINT_FORMAT}'. Fit the model again."
             )
-        with open(weights_path, "rb") as fh:
-            blob = fh.read()
+        try:
+            with open(weights_path, "rb") as fh:
+                blob = fh.read()
+        except OSError as exc:
+            raise CheckpointError(f"{weights_path}: cannot read the weights ({exc.strerror or type(exc).__name__})") from None
         if hashlib.sha256(blob).hexdigest() != meta.get("weights_sha256"):
             raise CheckpointError(f"{weights_path}: the weights file was changed after saving (hash mismatch); refusing it")
         try:
@@ -618,10 +637,15 @@ class NeuralEstimator(Estimator):
             _check_same_graph(saved_graph, graph, path)
         if table is not None:
             _check_same_states(states, table, path)
+        known = set(cls().get_params())
+        unknown = sorted(str(k) for k in settings if k not in known)
+        if unknown:
+            raise CheckpointError(f"{meta_path}: unknown setting '{unknown[0]}' in the model description")
+        settings["device"] = "cpu"  # the weights are stored from the CPU; answering needs no other device
+        est = cls(**settings)
         try:
-            est = cls(**settings)
             est._check_settings()
-        except Exception as exc:
+        except IntervgnnError as exc:
             raise CheckpointError(f"{meta_path}: unusable settings ({exc})") from None
         try:
             tensors = torch.load(io.BytesIO(blob), map_location="cpu", weights_only=True)

@@ -61,15 +61,6 @@ class Mixture:
         """Posterior weight of the hypotheses that use the decoder (strength above 0)."""
         return float(self.weight[self.strength > 0].sum())
 
-    def to_arrays(self) -> np.ndarray:
-        """``[3, J]`` (strength, alpha, weight), for checkpoints."""
-        return np.stack([self.strength, self.alpha, self.weight])
-
-    @classmethod
-    def from_arrays(cls, arr: np.ndarray) -> Mixture:
-        arr = np.asarray(arr, dtype=np.float64)
-        return cls(arr[0].copy(), arr[1].copy(), arr[2].copy())
-
 
 def _loglik(n: np.ndarray, pred: np.ndarray) -> float:
     """sum n * log(pred) over cells with n > 0."""
@@ -107,6 +98,10 @@ def mixture_weights(
     counts = np.asarray(counts, dtype=np.float64)
     k = counts.shape[1]
     total = counts.sum(axis=1, keepdims=True)
+    if not total.any():
+        # no row ever generated this variable (e.g. it was set in every row): nothing to weigh, and
+        # the decoder never saw its mechanism either; the counts-only answer is uniform
+        prior_counts = 1.0
     # counts-only: the plug-in's leave-one-out choice of alpha
     loo = [_loglik(counts, (counts - 1 + a) / np.maximum(total - 1 + k * a, 1e-300)) for a in alphas]
     best = int(np.argmax(loo))

@@ -435,7 +435,7 @@ def family_elbo(
     logp, kl, _ = model.family_terms(batch, generator, prior_mean)
     total = logp.new_zeros(()) if prior_mean else (weight * (-kl)).sum()
     total = total + (weight[batch.free_cells] * logp[batch.free_item[batch.free_cells]]).sum()
-    if batch.group_cell:
+    if batch.group_cell and batch.node.numel():  # with no cell at all every member was set: no group term
         logprior = torch.log_softmax(model.u_prior, dim=-1)
         s = model.u_states
         per_cell = logp.new_zeros(batch.node.size(0), s)
