@@ -8,6 +8,7 @@ values, ``KeyError`` is never used so messages print without quotes).
 from __future__ import annotations
 
 import difflib
+import reprlib
 
 __all__ = [
     "IntervgnnError",
@@ -142,3 +143,29 @@ def did_you_mean(word, options) -> str:
     """`` (did you mean 'x'?)`` for the option nearest to ``word``, or ``""`` when none is near."""
     near = difflib.get_close_matches(str(word), [str(o) for o in options], n=1)
     return f" (did you mean '{near[0]}'?)" if near else ""
+
+
+def shorten(text, limit: int = 80) -> str:
+    """``text`` (as ``str``) for an error message: at most ``limit`` characters, cut ones ending in ``...``.
+
+    >>> shorten("x" * 100, 10)
+    'xxxxxxx...'
+    """
+    text = str(text)
+    return text if len(text) <= limit else text[: max(limit - 3, 0)] + "..."
+
+
+def short_repr(value, limit: int = 80) -> str:
+    """``repr(value)`` for an error message, at most ``limit`` characters.
+
+    Large or deeply nested containers are shown with :mod:`reprlib` (a few
+    items per level, a few levels), so the work stays small whatever the
+    value holds.
+
+    >>> short_repr([["a", "b"], list(range(100))], 40)
+    "[['a', 'b'], [0, 1, 2, 3, 4, 5, ...]]"
+    """
+    r = reprlib.Repr()
+    r.maxstring = r.maxother = r.maxlong = limit
+    r.maxlevel = 4
+    return shorten(r.repr(value), limit)

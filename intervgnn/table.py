@@ -16,9 +16,9 @@ from collections.abc import Iterable, Mapping, Sequence
 import numpy as np
 
 from ._io import atomic_open
-from .errors import DataError
+from .errors import DataError, short_repr, shorten
 
-__all__ = ["Table", "REGIME_COLUMN", "REGIME_SEPARATOR"]
+__all__ = ["Table", "REGIME_COLUMN", "REGIME_SEPARATOR", "MISSING_MARKERS"]
 
 #: Default name of the CSV column that lists a row's intervened variables.
 REGIME_COLUMN = "regime"
@@ -35,6 +35,25 @@ def _is_missing(x) -> bool:
     if type(x).__module__.startswith("pandas") and type(x).__name__ in ("NAType", "NaTType"):
         return True
     return False
+
+
+#: CSV cells read as a missing value (besides an empty cell), unless declared as a state of their column;
+#: the spellings spreadsheets, R and pandas write for "no value" (common practice, no source)
+MISSING_MARKERS = frozenset({"NA", "N/A", "n/a", "NaN", "nan", "NULL", "null", "#N/A", "<NA>"})
+
+
+def _factorize(col) -> tuple[list[str], np.ndarray]:
+    """Sorted distinct strings of ``col`` and each row's index into them.
+
+    A dict, not a fixed-width numpy string array: one very long cell would
+    make such an array as wide as itself in every row.
+    """
+    index: dict[str, int] = {}
+    first = [index.setdefault(x, len(index)) for x in col.tolist()]
+    uniq = sorted(index)
+    rank = np.empty(len(uniq), dtype=np.int64)
+    rank[[index[u] for u in uniq]] = np.arange(len(uniq))
+    return uniq, rank[np.asarray(first, dtype=np.int64)]
 
 
 def _as_labels(values) -> np.ndarray:
@@ -354,8 +373,13 @@ class Table:
         )
 
     @classmethod
-    def _from_strings(cls, names, cols, states, intervened, row_label, n=None, regime_label="regime") -> Table:
-        if states is not None:
+    def _from_strings(
+        cls, names, cols, states, intervened, row_label, n=None, regime_label="regime", partial=False, markers=frozenset()
+    ) -> Table:
+        # partial: ``states`` may leave out columns (their states come from the data) and name
+        # variables that are not columns (the caller checks the columns); markers: cells that
+        # are missing values unless declared as a state of their column
+        if states is not None and not partial:
             expected = list(states)
             for v in names:
                 if v not in states:
@@ -376,21 +400,28 @@ class Table:
         final_states: dict[str, tuple[str, ...]] = {}
         for j, v in enumerate(order):
             col = by_name[v]
-            uniq, inverse = np.unique(col.astype(str), return_inverse=True) if n else (np.array([], str), np.array([], int))
-            if "" in uniq.tolist():
-                r = int(np.flatnonzero(col.astype(str) == "")[0])
-                raise DataError(f"{row_label(r)}, column '{v}': missing value")
-            if states is not None:
-                st = tuple(str(s) for s in states[v])
-            else:
-                st = tuple(uniq.tolist())
+            uniq, inverse = _factorize(col)  # cells are str: _as_labels and read_csv make them so
+            declared = None if states is None or v not in states else tuple(str(s) for s in states[v])
+            if n == 0 and declared is None:
+                raise DataError(f"no rows, so the states of '{shorten(v)}' cannot be read from the data; give its states")
+            for u_i, u in enumerate(uniq):
+                if u == "":
+                    r = int(np.flatnonzero(inverse == u_i)[0])
+                    raise DataError(f"{row_label(r)}, column '{shorten(v)}': missing value")
+                if u in markers and (declared is None or u not in declared):
+                    r = int(np.flatnonzero(inverse == u_i)[0])
+                    raise DataError(
+                        f"{row_label(r)}, column '{shorten(v)}': missing value '{u}'; drop or fill such rows "
+                        f"(if '{u}' is a state, declare it among the variable's states)"
+                    )
+            st = declared if declared is not None else tuple(uniq)
             lookup = {s: i for i, s in enumerate(st)}
             mapping = np.empty(len(uniq), dtype=np.int64)
-            for u_i, u in enumerate(uniq.tolist()):
+            for u_i, u in enumerate(uniq):
                 if u not in lookup:
                     r = int(np.flatnonzero(inverse == u_i)[0])
-                    listed = ", ".join(sorted(st))
-                    raise DataError(f"{row_label(r)}, column '{v}': unknown state '{u}'; states are: {listed}")
+                    listed = shorten(", ".join(sorted(st)), 200)
+                    raise DataError(f"{row_label(r)}, column '{shorten(v)}': unknown state '{shorten(u)}'; states are: {listed}")
                 mapping[u_i] = lookup[u]
             codes[:, j] = mapping[inverse.reshape(-1)] if n else mapping[:0]
             final_states[v] = st
@@ -405,8 +436,8 @@ class Table:
                 for name in names_r:
                     if name not in pos:
                         raise DataError(
-                            f"{row_label(r)}, {regime_label}: unknown variable '{name}'; "
-                            f"variables are: {', '.join(sorted(order))}"
+                            f"{row_label(r)}, {regime_label}: unknown variable '{shorten(name)}'; "
+                            f"variables are: {shorten(', '.join(sorted(order)), 200)}"
                         )
                     mask[r, pos[name]] = True
         return cls(codes, order, final_states, mask)
@@ -436,11 +467,28 @@ class Table:
         Raises
         ------
         DataError
-            Empty file, ragged line, missing or extra column, unknown state,
-            missing value: the message names the file, row and column.
-            Blank lines are skipped (in a one-column file only trailing
-            ones: a blank line between rows is a missing value there).
+            Empty file, a header without rows (unless ``states`` declares
+            every column's states), ragged line, missing or extra column,
+            unknown state, missing value: the message names the file, row
+            and column. Blank lines are skipped (in a one-column file only
+            trailing ones: a blank line between rows is a missing value
+            there).
+
+        Notes
+        -----
+        A missing value is an error, because the estimators have no model of
+        missing data: drop or fill such rows first. A cell is missing when it
+        is empty (or only spaces) or holds one of :data:`MISSING_MARKERS`
+        (``NA``, ``N/A``, ``n/a``, ``NaN``, ``nan``, ``NULL``, ``null``,
+        ``#N/A``, ``<NA>``), unless that marker is a declared state of its
+        column.
         """
+        return cls._read_csv(path, states, regime_column)
+
+    @classmethod
+    def _read_csv(cls, path, states, regime_column, partial: bool = False) -> Table:
+        # partial: ``states`` may cover only some columns, and name variables that are not
+        # columns (userdata.read_csv checks the columns against the graph itself)
         source = str(path) if not isinstance(path, io.TextIOBase) else getattr(path, "name", "<stream>")
 
         def records(fh):
@@ -491,7 +539,7 @@ class Table:
             if not h:
                 raise DataError(f"{source}: column {j + 1} of the header has no name")
             if h in seen:
-                raise DataError(f"{source}: column '{h}' appears twice in the header")
+                raise DataError(f"{source}: column '{shorten(h)}' appears twice in the header")
             seen.add(h)
         matrix = np.array(body, dtype=object).reshape(len(body), len(header))
         regimes = None
@@ -503,6 +551,8 @@ class Table:
             ]
             names = [h for h in header if h != regime_column]
             matrix = np.delete(matrix, j, axis=1)
+        if not body and (states is None or (partial and any(v not in states for v in names))):
+            raise DataError(f"{source}: the file has a header but no rows")
         cols = [np.array([c.strip() for c in matrix[:, j].tolist()], dtype=object) for j in range(len(names))]
         try:
             return cls._from_strings(
@@ -513,6 +563,8 @@ class Table:
                 row_label=lambda r: f"row {r + 1} (line {lines[r]})",
                 n=len(body),
                 regime_label=f"column '{regime_column}'",
+                partial=partial,
+                markers=MISSING_MARKERS,
             )
         except DataError as exc:
             raise DataError(f"{source}: {exc}") from None
@@ -586,17 +638,24 @@ class Table:
     def from_pandas(cls, df, states: Mapping[str, Sequence[str]] | None = None, regime_column: str | None = None) -> Table:
         """Build from a ``pandas.DataFrame`` of state names (or categoricals).
 
-        Categorical columns keep their category order as states unless
-        ``states`` says otherwise; the states of other columns are their
-        distinct values, sorted. Missing values (None, NaN, ``pd.NA``) are
-        errors. A regime cell is a ``;``-separated string or a list of
-        variable names; a missing or empty cell means observational.
+        ``states`` may declare the states of only some columns (say, those
+        a graph file declares); every variable it names must be a column.
+        Columns it leaves out keep their category order as states if
+        categorical, else their distinct values, sorted. Columns follow
+        ``states`` when it names them all, else the frame's order. Missing
+        values (None, NaN, ``pd.NA``) are errors. A regime cell is a
+        ``;``-separated string or a list of variable names; a missing or
+        empty cell means observational.
+        :func:`intervgnn.userdata.from_dataframe` builds the table for a
+        graph file.
 
         Raises
         ------
         DataError
-            Duplicate column, missing value, unknown state, or a malformed
-            regime cell: the message names row and column.
+            Duplicate column, a variable of ``states`` that is not a column,
+            a frame without rows for a column whose states are not given,
+            missing value, unknown state, or a malformed regime cell: the
+            message names row and column.
         """
         import pandas as pd
 
@@ -605,8 +664,12 @@ class Table:
         seen: set[str] = set()
         for v in names:
             if v in seen:
-                raise DataError(f"column '{v}' appears twice")
+                raise DataError(f"column '{shorten(v)}' appears twice")
             seen.add(v)
+        if states is not None:
+            for v in states:
+                if v not in seen:
+                    raise DataError(f"missing column '{shorten(v)}'")
         n = len(df)
         regimes = None
         if regime_column is not None and regime_column in df.columns:
@@ -621,16 +684,16 @@ class Table:
                 else:
                     raise DataError(
                         f"row {r + 1}, column '{regime_column}': expected variable names separated by "
-                        f"'{REGIME_SEPARATOR}', got {cell!r}"
+                        f"'{REGIME_SEPARATOR}', got {short_repr(cell)}"
                     )
         cols = [_as_labels(df.iloc[:, j].tolist()) for j, c in enumerate(df.columns) if c != regime_column]
-        if states is None and any(isinstance(df[c].dtype, pd.CategoricalDtype) for c in labels):
-            states = {}
-            for v, c, col in zip(names, labels, cols):
-                if isinstance(df[c].dtype, pd.CategoricalDtype):
-                    states[v] = [str(x) for x in df[c].cat.categories]
-                else:
-                    states[v] = sorted(set(col.tolist()) - {""})
+        partial = states is None or any(v not in states for v in names)
+        if partial:  # the others: category order, or the distinct values found
+            declared = dict(states or {})
+            for v, c in zip(names, labels):
+                if v not in declared and isinstance(df[c].dtype, pd.CategoricalDtype):
+                    declared[v] = [str(x) for x in df[c].cat.categories]
+            states = declared
         return cls._from_strings(
             names,
             cols,
@@ -639,4 +702,5 @@ class Table:
             row_label=lambda r: f"row {r + 1}",
             n=n,
             regime_label=f"column '{regime_column}'",
+            partial=partial,
         )

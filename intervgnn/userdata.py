@@ -1,4 +1,4 @@
-"""A user's own data: a graph file in YAML and rows in CSV.
+"""A user's own data: a graph file in YAML and rows in CSV (or a pandas DataFrame).
 
 The graph file is plain YAML of this shape::
 
@@ -15,22 +15,31 @@ The graph file is plain YAML of this shape::
       - [Irrigation, Yield]
 
 Without ``states``, a variable's states are the distinct values found in the
-data, sorted.
+data, sorted. States given for only some variables are fine: the others
+come from the data.
+
+Every value in a graph file is read as text: ``yes``, ``on``, ``01`` and
+``1.0`` are the names ``"yes"``, ``"on"``, ``"01"`` and ``"1.0"`` (not true,
+1 or 1.0). A key given twice, aliases (``*name``) standing for more than
+100,000 values, or nesting more than 100 levels deep are refused (see
+:mod:`intervgnn._yaml`).
 """
 
 from __future__ import annotations
 
+import io
 import os
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import yaml
 
-from .errors import DataError, GraphError, did_you_mean
+from ._yaml import load_yaml, yaml_problem
+from .errors import DataError, GraphError, did_you_mean, short_repr, shorten
 from .graph import CausalGraph
 from .table import REGIME_COLUMN, Table
 
-__all__ = ["GraphSpec", "load_graph", "parse_graph", "read_csv", "GRAPH_KEYS"]
+__all__ = ["GraphSpec", "load_graph", "parse_graph", "read_csv", "from_dataframe", "GRAPH_KEYS"]
 
 GRAPH_KEYS = ("edges", "variables", "states", "regime_column", "confounded")
 
@@ -46,6 +55,17 @@ class GraphSpec:
     source: str = "<graph>"
 
 
+def _name(value, source: str, what: str) -> str:
+    """A variable or state name from the document: text (numbers, from a document built in Python, as text)."""
+    if isinstance(value, str):
+        return value
+    if value is None:
+        raise GraphError(f"{source}: {what} is empty")
+    if isinstance(value, (int, float)):
+        return str(value)
+    raise GraphError(f"{source}: {what} must be a name, got {short_repr(value)}")
+
+
 def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
     """Build a :class:`GraphSpec` from the parsed YAML document.
 
@@ -59,7 +79,9 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
         raise GraphError(f"{source}: expected a mapping with an 'edges' list at the top")
     for key in doc:
         if key not in GRAPH_KEYS:
-            raise GraphError(f"{source}: unknown key '{key}'{did_you_mean(str(key), GRAPH_KEYS)}; keys are: {', '.join(GRAPH_KEYS)}")
+            raise GraphError(
+                f"{source}: unknown key '{shorten(key)}'{did_you_mean(str(key), GRAPH_KEYS)}; keys are: {', '.join(GRAPH_KEYS)}"
+            )
     raw_edges = doc.get("edges")
     if raw_edges is None:
         raw_edges = []
@@ -68,13 +90,13 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
     edges = []
     for i, e in enumerate(raw_edges):
         if not (isinstance(e, (list, tuple)) and len(e) == 2 and all(isinstance(x, (str, int, float, bool)) for x in e)):
-            raise GraphError(f"{source}: edge #{i + 1} must be a [parent, child] pair, got {e!r}")
+            raise GraphError(f"{source}: edge #{i + 1} must be a [parent, child] pair, got {short_repr(e)}")
         edges.append((str(e[0]), str(e[1])))
     variables = doc.get("variables")
     if variables is not None:
         if not isinstance(variables, list):
             raise GraphError(f"{source}: 'variables' must be a list of names")
-        variables = [str(v) for v in variables]
+        variables = [_name(v, source, f"variable #{i + 1}") for i, v in enumerate(variables)]
     try:
         graph = CausalGraph(edges, nodes=variables)
     except GraphError as exc:
@@ -87,15 +109,17 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
             raise GraphError(f"{source}: 'states' must map each variable to its list of states")
         out = {}
         for v, st in states.items():
-            v = str(v)
+            v = _name(v, source, "a variable name in 'states'")
             if v not in graph:
-                raise GraphError(f"{source}: states given for '{v}', which is not in the graph{did_you_mean(v, graph.nodes)}")
+                raise GraphError(
+                    f"{source}: states given for '{shorten(v)}', which is not in the graph{did_you_mean(v, graph.nodes)}"
+                )
             if not isinstance(st, list) or not st:
-                raise GraphError(f"{source}: states of '{v}' must be a non-empty list")
-            names = tuple(str(s) for s in st)
+                raise GraphError(f"{source}: states of '{shorten(v)}' must be a non-empty list")
+            names = tuple(_name(s, source, f"state #{j + 1} of '{shorten(v)}'") for j, s in enumerate(st))
             if len(set(names)) != len(names):
                 dup = next(s for s in names if names.count(s) > 1)
-                raise GraphError(f"{source}: variable '{v}' lists state '{dup}' twice")
+                raise GraphError(f"{source}: variable '{shorten(v)}' lists state '{shorten(dup)}' twice")
             out[v] = names
         states = out
     regime = doc.get("regime_column", REGIME_COLUMN)
@@ -107,11 +131,13 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
         raise GraphError(f"{source}: 'confounded' must be a list of [A, B] pairs")
     for i, pair in enumerate(raw_pairs):
         if not (isinstance(pair, (list, tuple)) and len(pair) == 2):
-            raise GraphError(f"{source}: confounded pair #{i + 1} must be [A, B], got {pair!r}")
-        a, b = str(pair[0]), str(pair[1])
+            raise GraphError(f"{source}: confounded pair #{i + 1} must be [A, B], got {short_repr(pair)}")
+        a, b = (_name(w, source, f"a name in confounded pair #{i + 1}") for w in pair)
         for w in (a, b):
             if w not in graph:
-                raise GraphError(f"{source}: confounded pair names '{w}', which is not in the graph{did_you_mean(w, graph.nodes)}")
+                raise GraphError(
+                    f"{source}: confounded pair names '{shorten(w)}', which is not in the graph{did_you_mean(w, graph.nodes)}"
+                )
         confounded.append((a, b))
     if confounded:
         try:
@@ -122,27 +148,50 @@ def parse_graph(doc, source: str = "<graph>") -> GraphSpec:
 
 
 def load_graph(path: str | os.PathLike) -> GraphSpec:
-    """Read a graph file (YAML, loaded with ``yaml.safe_load``).
+    """Read a graph file (YAML; every value read as text, see the module notes).
 
     Raises
     ------
     GraphError
-        Missing file, YAML syntax error (with line), or any problem
-        :func:`parse_graph` reports.
+        Missing file, YAML syntax error (with line), a key given twice in
+        one mapping, aliases standing for too many values, nesting too deep,
+        or any problem :func:`parse_graph` reports.
     """
     source = os.fspath(path)
     try:
         with open(source, encoding="utf-8") as fh:
-            doc = yaml.safe_load(fh)
+            doc = load_yaml(fh, names=True)
     except FileNotFoundError:
         raise GraphError(f"{source}: no such file") from None
     except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f", line {mark.line + 1}" if mark is not None else ""
-        raise GraphError(f"{source}{where}: not valid YAML ({getattr(exc, 'problem', exc)})") from None
+        raise GraphError(yaml_problem(source, exc)) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise GraphError(f"{source}: cannot read the file ({exc})") from None
     return parse_graph(doc, source)
+
+
+def _graph_spec(graph) -> GraphSpec:
+    if isinstance(graph, (str, os.PathLike)):
+        return load_graph(graph)
+    if isinstance(graph, CausalGraph):
+        return GraphSpec(graph)
+    if isinstance(graph, GraphSpec):
+        return graph
+    raise GraphError(f"graph must be a graph file path, a CausalGraph or a GraphSpec; got {type(graph).__name__}")
+
+
+def _check_columns(names, graph: CausalGraph, where: str) -> None:
+    """Every graph variable is a column and every column a graph variable."""
+    present = set(names)
+    for v in graph.nodes:
+        if v not in present:
+            raise DataError(f"{where}variable '{shorten(v)}' is in the graph but not in the data")
+    for v in names:
+        if v not in graph:
+            raise DataError(
+                f"{where}column '{shorten(v)}' is not in the graph{did_you_mean(v, graph.nodes)}; "
+                "add it to the graph or drop the column"
+            )
 
 
 def read_csv(path: str | os.PathLike, graph) -> Table:
@@ -158,39 +207,71 @@ def read_csv(path: str | os.PathLike, graph) -> Table:
     Returns
     -------
     Table
-        Columns in the graph's node order.
+        Columns in the graph's node order; the states the graph file
+        declares, the others' states read from the rows.
 
     Raises
     ------
     DataError
         A graph variable missing from the data, a data column not in the
-        graph, a value not among the declared states, a missing value (all
-        naming row and column).
+        graph, a value not among the declared states, a missing value (an
+        empty cell, or ``NA``, ``NaN``, ``null`` and the other markers of
+        :data:`~intervgnn.table.MISSING_MARKERS` unless declared as a
+        state: the estimators have no model of missing data, so drop or
+        fill such rows first), or a header without rows (all naming the file,
+        and row and column where there is one).
     GraphError
         The graph file is invalid (for example it has a cycle).
     """
-    if isinstance(graph, (str, os.PathLike)):
-        spec = load_graph(graph)
-    elif isinstance(graph, CausalGraph):
-        spec = GraphSpec(graph)
-    elif isinstance(graph, GraphSpec):
-        spec = graph
-    else:
-        raise GraphError(f"graph must be a graph file path, a CausalGraph or a GraphSpec; got {type(graph).__name__}")
-    g = spec.graph
-    table = Table.read_csv(path, states=None, regime_column=spec.regime_column)
-    for v in g.nodes:
-        if v not in table.variables:
-            raise DataError(f"{os.fspath(path)}: variable '{v}' is in the graph but not in the data")
-    for v in table.variables:
-        if v not in g:
-            raise DataError(
-                f"{os.fspath(path)}: column '{v}' is not in the graph{did_you_mean(v, g.nodes)}; add it to the graph or drop the column"
-            )
-    table = table.select(g.nodes)
-    if spec.states:
-        try:
-            table = table.with_states(spec.states)
-        except DataError as exc:
-            raise DataError(f"{os.fspath(path)}: {exc}") from None
-    return table
+    spec = _graph_spec(graph)
+    source = getattr(path, "name", "<stream>") if isinstance(path, io.TextIOBase) else os.fspath(path)
+    table = Table._read_csv(path, spec.states, spec.regime_column, partial=True)
+    _check_columns(table.variables, spec.graph, f"{source}: ")
+    return table.select(spec.graph.nodes)
+
+
+def from_dataframe(df, graph) -> Table:
+    """Rows for a causal diagram from a ``pandas.DataFrame``, as :func:`read_csv` reads a CSV file.
+
+    Parameters
+    ----------
+    df : pandas.DataFrame
+        One column per graph variable, of state names (or categoricals),
+        and optionally the graph's regime column (``;``-separated names of
+        the variables set by intervention in that row, or lists of names).
+    graph : GraphSpec, CausalGraph, or path of a graph file
+        The states it declares are used for those variables; the others'
+        states come from the data (category order, or the distinct values
+        sorted).
+
+    Returns
+    -------
+    Table
+        Columns in the graph's node order.
+
+    Raises
+    ------
+    DataError
+        Not a data frame, a graph variable missing from the frame, a column
+        not in the graph, a value not among the declared states, a missing
+        value (None, NaN, ``pd.NA``), or no rows for a variable whose states
+        the graph does not declare: the message names row and column.
+    GraphError
+        The graph file is invalid.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from intervgnn.graph import CausalGraph
+    >>> spec = GraphSpec(CausalGraph([("Season", "Yield")]), states={"Season": ("cool", "warm")})
+    >>> df = pd.DataFrame({"Yield": ["good", "poor"], "Season": ["warm", "warm"]})
+    >>> t = from_dataframe(df, spec)
+    >>> t.variables, t.states["Season"], t.states["Yield"]
+    (('Season', 'Yield'), ('cool', 'warm'), ('good', 'poor'))
+    """
+    spec = _graph_spec(graph)
+    if not (hasattr(df, "columns") and hasattr(df, "iloc")):
+        raise DataError(f"expected a pandas DataFrame, got {type(df).__name__}")
+    _check_columns([str(c) for c in df.columns if c != spec.regime_column], spec.graph, "")
+    table = Table.from_pandas(df, states=spec.states, regime_column=spec.regime_column)
+    return table.select(spec.graph.nodes)

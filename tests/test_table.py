@@ -362,7 +362,7 @@ def test_read_csv_skips_blank_lines_but_not_a_blank_single_column_value():
 
 def test_read_csv_header_only():
     assert Table.read_csv(io.StringIO("A,B\n"), states=STATES).n_rows == 0
-    assert read_error("A,B\n") == "data.csv: variable 'A' has no states"
+    assert read_error("A,B\n") == "data.csv: the file has a header but no rows"
 
 
 def test_to_csv_stream_and_atomic_write(table, tmp_path, monkeypatch):

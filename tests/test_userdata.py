@@ -40,7 +40,7 @@ def test_graph_file_and_rows(tmp_path):
 def test_value_not_in_declared_states(tmp_path):
     g = write(tmp_path, "g.yaml", GRAPH)
     csv = write(tmp_path, "rows.csv", "Season,Irrigation,Yield\ncool,low,good\ncool,medium,poor\n")
-    with pytest.raises(DataError, match=r"rows.csv: row 2, column 'Irrigation': unknown state 'medium'; states are: high, low"):
+    with pytest.raises(DataError, match=r"rows.csv: row 2 \(line 3\), column 'Irrigation': unknown state 'medium'; states are: high, low"):
         read_csv(csv, g)
 
 

@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import gzip
 import itertools
+import math
 import os
 import re
 import zlib
@@ -38,9 +39,9 @@ import networkx as nx
 import numpy as np
 
 from .._io import atomic_open
-from ..errors import BIFParseError, GraphError, NetworkError
+from ..errors import BIFParseError, GraphError, NetworkError, shorten
 from ..graph import CausalGraph
-from .network import _ROW_TOL, CausalNetwork
+from .network import _ROW_TOL, MAX_CPT_ENTRIES, MAX_NETWORK_ENTRIES, CausalNetwork
 
 __all__ = ["read_bif", "parse_bif", "write_bif", "format_bif"]
 
@@ -156,14 +157,14 @@ class _Scanner:
         if tok is None:
             raise self.error(f"expected '{text}' but the file ended")
         if tok[1] != text or (tok[0] == "punct") != (text in _PUNCT):
-            raise self.error(f"expected '{text}', found '{tok[1]}'")
+            raise self.error(f"expected '{text}', found '{shorten(tok[1])}'")
 
     def word(self, what: str) -> str:
         tok = self.next()
         if tok is None:
             raise self.error(f"expected {what} but the file ended")
         if tok[0] == "punct":
-            raise self.error(f"expected {what}, found '{tok[1]}'")
+            raise self.error(f"expected {what}, found '{shorten(tok[1])}'")
         return tok[1]
 
     def accept(self, text: str) -> bool:
@@ -194,11 +195,11 @@ def _numbers(sc: _Scanner, what: str) -> list[float]:
                 return vals
             if text == ",":
                 continue
-            raise sc.error(f"{what}: expected a number, found '{text}'")
+            raise sc.error(f"{what}: expected a number, found '{shorten(text)}'")
         try:
             vals.append(float(text))
         except ValueError:
-            raise sc.error(f"{what}: '{text}' is not a number") from None
+            raise sc.error(f"{what}: '{shorten(text)}' is not a number") from None
 
 
 def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
@@ -236,7 +237,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
         kind, word = tok
         line = sc.line
         if kind != "word":
-            raise sc.error(f"expected 'network', 'variable' or 'probability', found '{word}'")
+            raise sc.error(f"expected 'network', 'variable' or 'probability', found '{shorten(word)}'")
         if word == "network":
             if seen_network:
                 raise sc.error("a second 'network' block")
@@ -248,7 +249,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             while not sc.accept("}"):
                 kw = sc.word("'property' or '}'")
                 if kw != "property":
-                    raise sc.error(f"expected 'property' or '}}' in the network block, found '{kw}'")
+                    raise sc.error(f"expected 'property' or '}}' in the network block, found '{shorten(kw)}'")
                 k, v = _parse_property(sc.raw_until_semicolon())
                 net_props[k] = v
         elif word == "variable":
@@ -256,7 +257,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             if vname == "":
                 raise sc.error("a variable name is empty")
             if vname in states or vname in var_line:
-                raise sc.error(f"variable '{vname}' is declared twice")
+                raise sc.error(f"variable '{shorten(vname)}' is declared twice")
             var_line[vname] = line
             sc.expect("{")
             props: dict[str, str] = {}
@@ -270,11 +271,11 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                     tline = sc.line
                     kind_word = sc.word("'discrete'")
                     if kind_word != "discrete":
-                        raise sc.error(f"variable '{vname}': only 'discrete' variables are supported, found '{kind_word}'")
+                        raise sc.error(f"variable '{shorten(vname)}': only 'discrete' variables are supported, found '{shorten(kind_word)}'")
                     sc.expect("[")
                     count_text = sc.word("the number of states")
                     if not (count_text.isascii() and count_text.isdigit()):
-                        raise sc.error(f"variable '{vname}': '{count_text}' is not a number of states")
+                        raise sc.error(f"variable '{shorten(vname)}': '{shorten(count_text)}' is not a number of states")
                     sc.expect("]")
                     sc.expect("{")
                     names: list[str] = []
@@ -283,21 +284,22 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                             continue
                         names.append(sc.word("a state name"))
                     sc.expect(";")
-                    if int(count_text) != len(names):
+                    # a count of thousands of digits cannot match, and int() would refuse it
+                    if len(count_text) > 18 or int(count_text) != len(names):
                         raise sc.error(
-                            f"variable '{vname}' declares {count_text} states but lists {len(names)}", tline
+                            f"variable '{shorten(vname)}' declares {shorten(count_text, 40)} states but lists {len(names)}", tline
                         )
                     if not names:
-                        raise sc.error(f"variable '{vname}' has no states", tline)
+                        raise sc.error(f"variable '{shorten(vname)}' has no states", tline)
                     if len(set(names)) != len(names):
                         dup = next(s for s in names if names.count(s) > 1)
-                        raise sc.error(f"variable '{vname}' lists state '{dup}' twice", tline)
+                        raise sc.error(f"variable '{shorten(vname)}' lists state '{shorten(dup)}' twice", tline)
                     got_type = True
                     states[vname] = tuple(names)
                 else:
-                    raise sc.error(f"expected 'type', 'property' or '}}' in variable '{vname}', found '{kw}'")
+                    raise sc.error(f"expected 'type', 'property' or '}}' in variable '{shorten(vname)}', found '{shorten(kw)}'")
             if not got_type:
-                raise sc.error(f"variable '{vname}' has no 'type discrete' line", line)
+                raise sc.error(f"variable '{shorten(vname)}' has no 'type discrete' line", line)
             var_order.append(vname)
             if props:
                 var_props[vname] = props
@@ -313,13 +315,13 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             else:
                 sc.expect(")")
             if child in blocks:
-                raise sc.error(f"a second probability block for '{child}'", line)
+                raise sc.error(f"a second probability block for '{shorten(child)}'", line)
             sc.expect("{")
             entries: list = []
             while not sc.accept("}"):
                 tok2 = sc.peek()
                 if tok2 is None:
-                    raise sc.error(f"probability block of '{child}' is not closed")
+                    raise sc.error(f"probability block of '{shorten(child)}' is not closed")
                 eline = sc.line
                 if tok2 == ("punct", "("):
                     sc.next()
@@ -328,33 +330,33 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                         if sc.accept(","):
                             continue
                         cfg.append(sc.word("a parent state"))
-                    entries.append(("row", eline, cfg, _numbers(sc, f"row of '{child}'")))
+                    entries.append(("row", eline, cfg, _numbers(sc, f"row of '{shorten(child)}'")))
                 elif tok2[0] == "word" and tok2[1] in ("table", "default"):
                     sc.next()
-                    entries.append((tok2[1], eline, None, _numbers(sc, f"{tok2[1]} of '{child}'")))
+                    entries.append((tok2[1], eline, None, _numbers(sc, f"{tok2[1]} of '{shorten(child)}'")))
                 elif tok2[0] == "word" and tok2[1] == "property":
                     sc.next()
                     sc.raw_until_semicolon()
                 else:
-                    raise sc.error(f"unexpected '{tok2[1]}' in the probability block of '{child}'")
+                    raise sc.error(f"unexpected '{shorten(tok2[1])}' in the probability block of '{shorten(child)}'")
             blocks[child] = (line, parents, entries)
         else:
-            raise sc.error(f"expected 'network', 'variable' or 'probability', found '{word}'")
+            raise sc.error(f"expected 'network', 'variable' or 'probability', found '{shorten(word)}'")
 
     if not var_order:
         raise BIFParseError("no variables declared", source, sc.line)
     # semantic checks -------------------------------------------------------
     for child, (line, parents, _) in blocks.items():
         if child not in states:
-            raise BIFParseError(f"probability block for undeclared variable '{child}'", source, line)
+            raise BIFParseError(f"probability block for undeclared variable '{shorten(child)}'", source, line)
         for p in parents:
             if p not in states:
-                raise BIFParseError(f"'{child}' has undeclared parent '{p}'", source, line)
+                raise BIFParseError(f"'{shorten(child)}' has undeclared parent '{shorten(p)}'", source, line)
             if p == child:
-                raise BIFParseError(f"'{child}' is listed as its own parent", source, line)
+                raise BIFParseError(f"'{shorten(child)}' is listed as its own parent", source, line)
         if len(set(parents)) != len(parents):
             dup = next(p for p in parents if parents.count(p) > 1)
-            raise BIFParseError(f"'{child}' lists parent '{dup}' twice", source, line)
+            raise BIFParseError(f"'{shorten(child)}' lists parent '{shorten(dup)}' twice", source, line)
     for v in var_order:
         if v not in blocks:
             raise BIFParseError(f"variable '{v}' has no probability block", source, var_line[v])
@@ -371,17 +373,30 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             line = None
         raise BIFParseError(str(exc), source, line) from None
 
+    # sizes are checked before any table is built (Python integers: no overflow)
+    total = 0
+    for child in var_order:
+        line, parents, _ = blocks[child]
+        size = math.prod(len(states[p]) for p in parents) * len(states[child])
+        if size > MAX_CPT_ENTRIES:
+            raise BIFParseError(
+                f"the CPT of '{shorten(child)}' would have {size:,} entries (states of its {len(parents)} parents times its own), "
+                f"more than the limit of {MAX_CPT_ENTRIES:,}",
+                source,
+                line,
+            )
+        total += size
+    if total > MAX_NETWORK_ENTRIES:
+        raise BIFParseError(
+            f"the CPTs would have {total:,} entries in all, more than the limit of {MAX_NETWORK_ENTRIES:,}", source, None
+        )
     cpts = {}
     row_lines: dict[str, np.ndarray] = {}
     for child in var_order:
         line, parents, entries = blocks[child]
         k = len(states[child])
         pcards = [len(states[p]) for p in parents]
-        n_rows = 1
-        for c in pcards:
-            n_rows *= c
-        if n_rows * k > 50_000_000:
-            raise BIFParseError(f"the CPT of '{child}' would have {n_rows * k} entries; too large", source, line)
+        n_rows = math.prod(pcards)
         table = np.zeros((n_rows, k))
         filled = np.zeros(n_rows, dtype=bool)
         by_row = np.zeros(n_rows, dtype=bool)  # given by a "(states) values;" row (a table may be overridden by rows)
@@ -394,7 +409,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             if kind == "table":
                 if len(vals) != n_rows * k:
                     raise BIFParseError(
-                        f"table of '{child}' has {len(vals)} values, expected {n_rows * k}", source, eline
+                        f"table of '{shorten(child)}' has {len(vals)} values, expected {n_rows * k}", source, eline
                     )
                 if table_line is not None or by_row.any() or default is not None:
                     earlier = [table_line] if table_line is not None else []
@@ -402,7 +417,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                     earlier += [default[1]] if default is not None else []
                     first = min(earlier)
                     raise BIFParseError(
-                        f"'{child}' has a table after earlier entries (line {first}); a table must come first",
+                        f"'{shorten(child)}' has a table after earlier entries (line {first}); a table must come first",
                         source,
                         eline,
                     )
@@ -412,23 +427,23 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                 row_line[:] = eline
             elif kind == "default":
                 if len(vals) != k:
-                    raise BIFParseError(f"default row of '{child}' has {len(vals)} values, expected {k}", source, eline)
+                    raise BIFParseError(f"default row of '{shorten(child)}' has {len(vals)} values, expected {k}", source, eline)
                 if default is not None:
-                    raise BIFParseError(f"'{child}' has a second default row (the first is on line {default[1]})", source, eline)
+                    raise BIFParseError(f"'{shorten(child)}' has a second default row (the first is on line {default[1]})", source, eline)
                 default = (vals, eline)
             else:
                 if len(cfg) != len(parents):
                     raise BIFParseError(
-                        f"row of '{child}' names {len(cfg)} parent states, expected {len(parents)}", source, eline
+                        f"row of '{shorten(child)}' names {len(cfg)} parent states, expected {len(parents)}", source, eline
                     )
                 if len(vals) != k:
-                    raise BIFParseError(f"row of '{child}' has {len(vals)} values, expected {k}", source, eline)
+                    raise BIFParseError(f"row of '{shorten(child)}' has {len(vals)} values, expected {k}", source, eline)
                 r = 0
                 for p, look, s, stv in zip(parents, lookups, cfg, strides):
                     if s not in look:
                         raise BIFParseError(
-                            f"row of '{child}': unknown state '{s}' for parent '{p}'; states are: "
-                            + ", ".join(sorted(states[p])),
+                            f"row of '{shorten(child)}': unknown state '{shorten(s)}' for parent '{shorten(p)}'; states are: "
+                            + shorten(", ".join(sorted(states[p])), 200),
                             source,
                             eline,
                         )
@@ -436,7 +451,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
                 if by_row[r]:
                     cfg_txt = ", ".join(f"{p}={s}" for p, s in zip(parents, cfg)) or "no parents"
                     raise BIFParseError(
-                        f"'{child}' has two rows for ({cfg_txt}); the first is on line {int(row_line[r])}", source, eline
+                        f"'{shorten(child)}' has two rows for ({cfg_txt}); the first is on line {int(row_line[r])}", source, eline
                     )
                 table[r] = vals
                 filled[r] = by_row[r] = True
@@ -449,7 +464,7 @@ def parse_bif(text: str, source: str = "<string>") -> CausalNetwork:
             else:
                 codes = np.unravel_index(int(missing[0]), pcards) if parents else ()
                 cfg_txt = ", ".join(f"{p}={states[p][int(c)]}" for p, c in zip(parents, codes))
-                raise BIFParseError(f"'{child}' has no row for ({cfg_txt})", source, line)
+                raise BIFParseError(f"'{shorten(child)}' has no row for ({cfg_txt})", source, line)
         cpts[child] = table.reshape(pcards + [k])
         row_lines[child] = row_line
     try:
