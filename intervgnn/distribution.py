@@ -133,10 +133,46 @@ class Distribution:
             "probs": self.probs.tolist(),
         }
 
-    def format(self, digits: int = 4) -> str:
-        """The distribution as an aligned text table."""
+    def format(self, digits: int = 4, max_rows: int | None = 50, show: int = 20) -> str:
+        """The distribution as an aligned text table.
+
+        Parameters
+        ----------
+        digits : int, default 4
+            Decimals of each probability.
+        max_rows : int or None, default 50
+            An answer with more entries than this is summarised: only its
+            ``show`` largest entries are listed (largest first), followed by
+            a line saying how many were left out. ``None`` lists every entry.
+        show : int, default 20
+            Entries listed when the answer is summarised.
+        """
+        for key, value in (("max_rows", max_rows), ("show", show)):
+            if value is None and key == "max_rows":
+                continue
+            if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
+                raise QueryError(f"{key} must be a whole number of at least 1, got {value!r}")
         header = list(self.variables) + ["probability"]
-        rows = [list(combo) + [f"{p:.{digits}f}"] for combo, p in self.items()]
+        total = int(self.probs.size)
+        note = None
+        if max_rows is not None and total > max_rows:
+            # the largest entries, found without walking every row in Python
+            flat = self.probs.reshape(-1)
+            k = min(int(show), total)
+            top = np.argpartition(-flat, k - 1)[:k]
+            top = top[np.lexsort((top, -flat[top]))]
+            codes = np.unravel_index(top, self.probs.shape)
+            rows = [
+                [self.states[i][int(codes[i][r])] for i in range(len(self.variables))] + [f"{flat[j]:.{digits}f}"]
+                for r, j in enumerate(top)
+            ]
+            note = (
+                f"... {total - k:,} of {total:,} entries left out (the {k} largest are listed); "
+                "format(max_rows=None) prints them all, to_dict() returns them all, "
+                "and on the command line --json prints them all"
+            )
+        else:
+            rows = [list(combo) + [f"{p:.{digits}f}"] for combo, p in self.items()]
         widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
         lines = []
         if self.description:
@@ -148,6 +184,8 @@ class Distribution:
         for r in rows:
             cells = [c.ljust(w) for c, w in zip(r[:-1], widths)] + [r[-1].rjust(widths[-1])]
             lines.append("  ".join(cells))
+        if note:
+            lines.append(note)
         return "\n".join(lines)
 
     def __str__(self) -> str:

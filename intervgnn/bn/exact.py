@@ -20,6 +20,7 @@ import numpy as np
 
 from ..errors import ZeroEvidenceError
 from ..graph import CausalGraph
+from ..query import check_answer_size
 
 __all__ = ["ExactEngine"]
 
@@ -212,9 +213,13 @@ class ExactEngine:
 
         Raises
         ------
+        QueryError
+            The answer would have more than
+            :data:`~intervgnn.query.MAX_ANSWER_ENTRIES` entries.
         ZeroEvidenceError
             If the evidence has probability zero (for any swept value).
         """
+        check_answer_size(self.states, targets, sweep)
         do = dict(do or {})
         given = dict(given or {})
         plan = self.plan(targets, tuple(do), tuple(given), sweep)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+import math
 from collections.abc import Mapping, Sequence
 
 import numpy as np
@@ -10,14 +11,26 @@ import numpy as np
 from ..distribution import Distribution
 from ..errors import NetworkError, QueryError
 from ..graph import CausalGraph
-from ..query import check_assignment, describe, make_query
+from ..query import (
+    MAX_ANSWER_ENTRIES,
+    check_answer_size,
+    check_assignment,
+    check_seed,
+    check_variable,
+    describe,
+    make_query,
+)
 from ..table import Table
 from .exact import ExactEngine
-from .sampling import AncestralSampler
+from .sampling import AncestralSampler, check_sample_size
 
 __all__ = ["CausalNetwork"]
 
 _ROW_TOL = 1e-6
+#: the most entries one CPT may have (80 MB of float64); larger tables are refused before they are built
+MAX_CPT_ENTRIES = 10_000_000
+#: the most entries all CPTs of a network may have together
+MAX_NETWORK_ENTRIES = 20_000_000
 
 
 class CausalNetwork:
@@ -45,8 +58,10 @@ class CausalNetwork:
     ------
     NetworkError
         Missing or extra variables, a repeated state name, a CPT of the wrong
-        shape, a negative or non-finite entry, or a row that does not sum to
-        one within 1e-6; the message names the variable and the row.
+        shape or of more than :data:`MAX_CPT_ENTRIES` entries (or CPTs of
+        more than :data:`MAX_NETWORK_ENTRIES` in all), a negative or
+        non-finite entry, or a row that does not sum to one within 1e-6; the
+        message names the variable and the row.
 
     Examples
     --------
@@ -89,6 +104,12 @@ class CausalNetwork:
                 raise NetworkError(f"variable '{v}' lists state '{dup}' twice")
             st[v] = names
         self._states = st
+        sizes = {v: math.prod(len(st[p]) for p in graph.parents(v)) * len(st[v]) for v in graph.nodes}
+        if sum(sizes.values()) > MAX_NETWORK_ENTRIES and max(sizes.values()) <= MAX_CPT_ENTRIES:
+            raise NetworkError(
+                f"the CPTs would have {sum(sizes.values()):,} entries in all, more than the limit of "
+                f"{MAX_NETWORK_ENTRIES:,}; use fewer parents or states"
+            )
         tables: dict[str, np.ndarray] = {}
         for v in graph.nodes:
             if v not in cpts:
@@ -101,6 +122,12 @@ class CausalNetwork:
     def _validate_cpt(self, v: str, raw) -> np.ndarray:
         pa = self.graph.parents(v)
         expected = tuple(len(self._states[p]) for p in pa) + (len(self._states[v]),)
+        entries = math.prod(expected)  # Python integers: no overflow
+        if entries > MAX_CPT_ENTRIES:
+            raise NetworkError(
+                f"CPT of '{v}' would have {entries:,} entries (states of its {len(pa)} parents times its own), "
+                f"more than the limit of {MAX_CPT_ENTRIES:,}; use fewer parents or states"
+            )
         try:
             arr = np.array(raw, dtype=np.float64)
         except (TypeError, ValueError):
@@ -109,23 +136,24 @@ class CausalNetwork:
             who = f"parents ({', '.join(pa)}) and itself" if pa else "itself (no parents)"
             raise NetworkError(f"CPT of '{v}' has shape {arr.shape}, expected {expected} for {who}")
         rows = arr.reshape(-1, expected[-1])
-        for r, row in enumerate(rows):
-            bad = ~np.isfinite(row) | (row < 0)
-            sums_ok = abs(row.sum() - 1.0) <= _ROW_TOL
-            if bad.any() or not sums_ok:
-                label = self._row_label(v, r)
-                if bad.any():
-                    j = int(np.flatnonzero(bad)[0])
-                    raise NetworkError(
-                        f"CPT of '{v}', row {label}: entry for state '{self._states[v][j]}' is {float(row[j])!r}; "
-                        "probabilities must be finite and non-negative"
-                    )
+        # all rows at once; the first wrong row is reported
+        bad = ~np.isfinite(rows) | (rows < 0)
+        sums = rows.sum(axis=1)
+        wrong = np.flatnonzero(bad.any(axis=1) | ~(np.abs(sums - 1.0) <= _ROW_TOL))
+        if wrong.size:
+            r = int(wrong[0])
+            row, label = rows[r], self._row_label(v, r)
+            if bad[r].any():
+                j = int(np.flatnonzero(bad[r])[0])
                 raise NetworkError(
-                    f"CPT of '{v}', row {label}: probabilities sum to {row.sum():.9g}, expected 1 (within {_ROW_TOL:g})"
+                    f"CPT of '{v}', row {label}: entry for state '{self._states[v][j]}' is {float(row[j])!r}; "
+                    "probabilities must be finite and non-negative"
                 )
+            raise NetworkError(
+                f"CPT of '{v}', row {label}: probabilities sum to {row.sum():.9g}, expected 1 (within {_ROW_TOL:g})"
+            )
         # rows that sum to one only within the tolerance are rescaled, so that
         # every route to an answer (elimination, adjustment, sampling) agrees
-        sums = rows.sum(axis=1)
         off = np.abs(sums - 1.0) > 1e-12
         if off.any():
             rows[off] /= sums[off, None]
@@ -209,14 +237,25 @@ class CausalNetwork:
             Intervened variables and their states; those columns are marked
             as intervened in every row.
         seed : int or numpy.random.Generator, optional
-            The same seed gives the same rows.
+            A non-negative whole number: the same seed gives the same rows.
 
         Returns
         -------
         Table
+
+        Raises
+        ------
+        QueryError
+            A bad row count, or an unknown variable or state in ``do``.
+        DataError
+            A seed that is not a non-negative whole number, or more rows
+            than one call may draw (rows x variables above
+            :data:`~intervgnn.bn.sampling.MAX_SAMPLE_CELLS`, 2 GiB of codes).
         """
         if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 0:
             raise QueryError(f"number of rows must be a non-negative integer, got {n!r}")
+        check_sample_size(n, len(self.variables))
+        seed = check_seed(seed, allow_none=True, allow_generator=True)
         do = check_assignment(self._states, do)
         if self._sampler is None:
             self._sampler = AncestralSampler(self.graph, self._cpts)
@@ -251,7 +290,9 @@ class CausalNetwork:
         Raises
         ------
         QueryError
-            Unknown variable or state, or a variable with two roles.
+            A name or state that is not a string, an unknown variable or
+            state, a variable with two roles, or an answer of more than
+            :data:`~intervgnn.query.MAX_ANSWER_ENTRIES` entries.
         ZeroEvidenceError
             The evidence has probability zero under the intervention.
         """
@@ -273,11 +314,12 @@ class CausalNetwork:
         dict of str to Distribution
             Keyed by the state of ``over``, in state order.
         """
-        if over not in self._states:
-            raise QueryError(f"unknown intervened variable '{over}'; variables are: {', '.join(sorted(self._states))}")
-        if do and over in do:
+        check_variable(self._states, over, "intervened")
+        do = check_assignment(self._states, do)
+        if over in do:
             raise QueryError(f"'{over}' is swept over and also given a value in do=")
         q = make_query(self._states, target, {**(do or {}), over: self._states[over][0]}, given)
+        check_answer_size(self._states, q.targets, sweep=over)
         rest = {k: v for k, v in q.do if k != over}
         probs = self._engine.query_array(q.targets, self._codes(rest), self._codes(q.given_dict), sweep=over)
         out = {}
@@ -292,9 +334,12 @@ class CausalNetwork:
 
     def joint(self) -> Distribution:
         """The full joint distribution (only sensible for small networks)."""
-        size = int(np.prod([len(s) for s in self._states.values()]))
-        if size > 10_000_000:
-            raise QueryError(f"the joint distribution has {size} entries; too many to build")
+        size = math.prod(len(s) for s in self._states.values())  # Python integers: no overflow
+        if size > MAX_ANSWER_ENTRIES:
+            raise QueryError(
+                f"the joint distribution has {size:,} entries, more than the limit of {MAX_ANSWER_ENTRIES:,}; "
+                "too many to build"
+            )
         return self.query(list(self.variables))
 
     def all_parent_configurations(self, v: str):

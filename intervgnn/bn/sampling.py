@@ -6,11 +6,28 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from ..errors import DataError
 from ..graph import CausalGraph
+from ..query import check_seed
 
-__all__ = ["AncestralSampler"]
+__all__ = ["AncestralSampler", "check_sample_size", "MAX_SAMPLE_CELLS"]
 
 _CHUNK = 1 << 16  # rows per block: keeps the temporaries in cache
+
+#: the most rows x variables one call may draw: 2 GiB of int64 codes
+MAX_SAMPLE_CELLS = 2**28
+
+
+def check_sample_size(n: int, n_variables: int) -> None:
+    """Raise DataError if ``n`` rows of ``n_variables`` exceed :data:`MAX_SAMPLE_CELLS` (before allocating)."""
+    cells = int(n) * int(n_variables)
+    if cells > MAX_SAMPLE_CELLS:
+        most = MAX_SAMPLE_CELLS // max(int(n_variables), 1)
+        raise DataError(
+            f"{int(n):,} rows of {n_variables} variables are {cells:,} values, more than one call may draw "
+            f"({MAX_SAMPLE_CELLS:,} values, 2 GiB of codes); draw at most {most:,} rows at a time "
+            "and join the tables with Table.concat"
+        )
 
 
 class AncestralSampler:
@@ -61,10 +78,17 @@ class AncestralSampler:
             Intervened variables and their state codes.
         seed : int or numpy.random.Generator, optional
             The same seed gives the same rows.
+
+        Raises
+        ------
+        DataError
+            A seed that is not a non-negative whole number (or a Generator),
+            or more than :data:`MAX_SAMPLE_CELLS` rows x variables.
         """
         do = dict(do or {})
-        rng = np.random.default_rng(seed)
         V = len(self.graph.nodes)
+        check_sample_size(n, V)
+        rng = np.random.default_rng(check_seed(seed, allow_none=True, allow_generator=True))
         # column-major: each variable's codes are contiguous
         out = np.empty((V, n), dtype=np.int64)
         for start in range(0, n, _CHUNK):

@@ -18,6 +18,7 @@ import numpy as np
 from ..bn.network import CausalNetwork
 from ..distribution import Distribution
 from ..errors import QueryError, ZeroEvidenceError
+from ..query import check_seed
 from .metrics import total_variation
 
 __all__ = ["EvalQuery", "make_query_set", "QUERY_KINDS", "CONFOUNDED_TV"]
@@ -131,7 +132,7 @@ def make_query_set(
             raise QueryError(f"unknown query kind '{k}'; kinds are: {', '.join(QUERY_KINDS)}")
     if not kinds:
         raise QueryError("at least one query kind is needed")
-    rng = np.random.default_rng(seed)
+    rng = np.random.default_rng(check_seed(seed))
     g = net.graph
     obs = list(g.nodes) if observed is None else [v for v in g.nodes if v in set(observed)]
     obs_set = set(obs)
