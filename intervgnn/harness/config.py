@@ -1,4 +1,4 @@
-"""Experiment configs: YAML (loaded with ``yaml.safe_load``), validated with plain errors.
+"""Experiment configs: YAML (read by :func:`intervgnn._yaml.load_yaml`: bounded aliases and depth, no repeated keys), validated with plain errors.
 
 Shape of a config::
 
@@ -24,6 +24,19 @@ Shape of a config::
     executor: local                  # or ray
     workers: 2
     bootstrap: 1000                  # resamples for the confidence intervals (0: none, else >= 100)
+
+A value that would make every run fail, or that would do nothing, is
+refused when the config is read, with the key path: each estimator checks
+its own settings (``estimators[1].neural.lr must be above 0, got -1``). So
+is a size beyond what can be meant: more than :data:`MAX_LIST` (1,000)
+entries in ``rows``, ``seeds``, ``networks`` or ``estimators``; more than
+:data:`MAX_ROWS` (10^8) rows per run or per experiment target; more than
+1,000 query patterns, 10,000 bootstrap resamples or 100,000 runs in the
+grid; a seed outside 0 to 2^63 - 1; a label of more than 100 characters.
+A name, kind or metric listed twice is refused too. Before any run starts
+the networks are checked (:func:`intervgnn.harness.runs.check_networks`):
+hidden and target variables exist, something is left observed, a query can
+be drawn, and no run would draw more rows than one sampling call may.
 """
 
 from __future__ import annotations
@@ -35,7 +48,8 @@ from dataclasses import dataclass, field
 
 import yaml
 
-from ..errors import ConfigError, did_you_mean
+from .._yaml import load_yaml, yaml_problem
+from ..errors import ConfigError, did_you_mean, short_repr
 from ..eval.queries import QUERY_KINDS
 
 __all__ = ["ExperimentConfig", "NetworkSpec", "EstimatorSpec", "load_config", "parse_config", "METRIC_NAMES"]
@@ -51,6 +65,22 @@ METRIC_NAMES = ("tv", "kl", "jsd", "hellinger", "effect")
 EXECUTORS = ("local", "ray")
 #: fewer resamples give percentile intervals too coarse to read
 MIN_BOOTSTRAP = 100
+#: each resample holds one index per query; more would cost gigabytes and change no digit worth reading
+MAX_BOOTSTRAP = 10_000
+#: the most entries of ``rows``, ``seeds``, ``networks`` and ``estimators``: a longer list cannot be meant
+MAX_LIST = 1_000
+#: the most names in a network's ``hidden`` or in ``experiments.targets``
+MAX_NAMES = 10_000
+#: the most rows of one run, observational (``rows``) or per experiment target (``rows_per_target``)
+MAX_ROWS = 10**8
+#: the most runs in a grid (networks x rows x seeds x estimators)
+MAX_RUNS = 100_000
+#: the most query patterns per network (``queries.count``)
+MAX_QUERY_COUNT = 1_000
+#: the largest seed (``seeds``, ``queries.seed``): a 64-bit signed whole number
+MAX_SEED = 2**63 - 1
+#: the longest network or estimator label (labels name the run files)
+MAX_LABEL = 100
 _LABEL = re.compile(r"[A-Za-z0-9][A-Za-z0-9._-]*")
 
 
@@ -63,33 +93,77 @@ def _type_name(value) -> str:
 def _check_keys(where: str, doc: Mapping, allowed) -> None:
     for key in doc:
         if key not in allowed:
-            raise ConfigError(f"{where}: unknown key '{key}'{did_you_mean(key, allowed)}; keys are: {', '.join(allowed)}")
+            raise ConfigError(
+                f"{where}: unknown key {short_repr(key)}{did_you_mean(key, allowed)}; keys are: {', '.join(allowed)}"
+            )
 
 
-def _int_list(where: str, value, minimum: int = 0) -> list[int]:
+def _check_length(where: str, value: list, most: int) -> None:
+    if len(value) > most:
+        raise ConfigError(f"{where}: {len(value):,} entries; at most {most:,} are allowed")
+
+
+def _whole(where: str, value, minimum: int, maximum: int) -> int:
+    """``value`` if it is a whole number in [minimum, maximum], else a ConfigError naming ``where``."""
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise ConfigError(f"{where}: expected a whole number, got {short_repr(value)}")
+    if not minimum <= value <= maximum:
+        raise ConfigError(f"{where}: expected a whole number from {minimum:,} to {maximum:,}, got {short_repr(value)}")
+    return value
+
+
+def _int_list(where: str, value, minimum: int = 0, maximum: int | None = None) -> list[int]:
     if isinstance(value, int) and not isinstance(value, bool):
         value = [value]
     if not isinstance(value, list):
         raise ConfigError(f"{where}: expected a whole number or a list of them, got {_type_name(value)}")
-    out = []
+    _check_length(where, value, MAX_LIST)
+    out, seen = [], set()
     for v in value:
         if isinstance(v, bool) or not isinstance(v, int):
-            raise ConfigError(f"{where}: expected whole numbers, got {v!r}")
+            raise ConfigError(f"{where}: expected whole numbers, got {short_repr(v)}")
         if v < minimum:
-            raise ConfigError(f"{where}: {v} is below the minimum of {minimum}")
-        if v in out:
+            raise ConfigError(f"{where}: {short_repr(v)} is below the minimum of {minimum}")
+        if maximum is not None and v > maximum:
+            raise ConfigError(f"{where}: {short_repr(v)} is above the maximum of {maximum:,}")
+        if v in seen:
             raise ConfigError(f"{where}: {v} is listed twice")
+        seen.add(v)
         out.append(v)
     return out
+
+
+def _name_list(where: str, value, most: int = MAX_NAMES) -> list[str]:
+    """A list of distinct variable names (hidden, experiment targets), checked in one pass."""
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise ConfigError(f"{where}: expected a list of variable names")
+    _check_length(where, value, most)
+    seen = set()
+    for v in value:
+        if v in seen:
+            raise ConfigError(f"{where}: {short_repr(v)} is listed twice")
+        seen.add(v)
+    return value
+
+
+def _distinct(where: str, values: list, what: str) -> None:
+    seen = set()
+    for v in values:
+        if v in seen:
+            raise ConfigError(f"{where}: {what} {short_repr(v)} is listed twice")
+        seen.add(v)
 
 
 def _check_label(where: str, label) -> None:
     # labels name the run files (network__rows__seedN__estimator.json)
     if not isinstance(label, str) or not _LABEL.fullmatch(label) or "__" in label:
         raise ConfigError(
-            f"{where}: label {label!r} cannot name a run file; use letters, digits, '.', '-' and single '_' "
+            f"{where}: label {short_repr(label)} cannot name a run file; use letters, digits, '.', '-' and single '_' "
             "(set 'label')"
         )
+    # two labels, a row count and a seed must fit a file name (255 bytes on common file systems)
+    if len(label) > MAX_LABEL:
+        raise ConfigError(f"{where}: label {short_repr(label)} is {len(label)} characters long; at most {MAX_LABEL} (set 'label')")
 
 
 @dataclass(frozen=True)
@@ -157,13 +231,14 @@ def _parse_network(where: str, item) -> NetworkSpec:
         src, random_label = spec.text, spec.label
     elif src not in CATALOG and not os.path.exists(src):
         raise ConfigError(
-            f"{where}: unknown network '{src}'{did_you_mean(src, CATALOG)}; shipped networks are: "
+            f"{where}: unknown network {short_repr(src)}{did_you_mean(src, CATALOG)}; shipped networks are: "
             f"{', '.join(CATALOG)} (or a random network such as random:nodes=30,seed=4, or the path of a BIF file)"
         )
-    hidden = item.get("hidden", [])
-    if not isinstance(hidden, list) or not all(isinstance(h, str) for h in hidden):
-        raise ConfigError(f"{where}.hidden: expected a list of variable names")
-    label = item.get("label") or random_label or (src if src in CATALOG else os.path.splitext(os.path.basename(src))[0])
+    hidden = _name_list(f"{where}.hidden", item.get("hidden", []))
+    # a label given as 0 or "" is refused below, not replaced by the default
+    label = item.get("label")
+    if label is None:
+        label = random_label or (src if src in CATALOG else os.path.splitext(os.path.basename(src))[0])
     if isinstance(label, (int, float)) and not isinstance(label, bool):
         label = str(label)
     if hidden and "label" not in item:
@@ -183,7 +258,9 @@ def _parse_estimator(where: str, item) -> EstimatorSpec:
     else:
         raise ConfigError(f"{where}: expected an estimator name or a one-key mapping name: {{settings}}")
     if kind not in ESTIMATORS:
-        raise ConfigError(f"{where}: unknown estimator '{kind}'{did_you_mean(kind, ESTIMATORS)}; estimators are: {', '.join(ESTIMATORS)}")
+        raise ConfigError(
+            f"{where}: unknown estimator {short_repr(kind)}{did_you_mean(kind, ESTIMATORS)}; estimators are: {', '.join(ESTIMATORS)}"
+        )
     if not isinstance(settings, Mapping):
         raise ConfigError(f"{where}.{kind}: settings must be a mapping, got {_type_name(settings)}")
     settings = dict(settings)
@@ -210,33 +287,45 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
     for key in ("networks", "rows", "seeds", "estimators"):
         if key not in doc:
             raise ConfigError(f"{source}: missing key '{key}'")
-    name = doc.get("name") or os.path.splitext(os.path.basename(source))[0]
-    output = doc.get("output") or os.path.join("runs", str(name))
+    name = doc.get("name")
+    if name is None:
+        name = os.path.splitext(os.path.basename(source))[0]
+    elif isinstance(name, bool) or not isinstance(name, (str, int, float)) or not str(name).strip():
+        raise ConfigError(f"{source}: 'name' must be text, got {short_repr(name)}")
+    output = doc.get("output")
+    if output is None:
+        output = os.path.join("runs", str(name))
     if not isinstance(output, str):
         raise ConfigError(f"{source}: 'output' must be a folder path, got {_type_name(output)}")
+    if not output.strip():
+        raise ConfigError(f"{source}: 'output' must be a folder path, got empty text (leave it out for runs/<name>)")
     if not isinstance(doc["networks"], list):
         raise ConfigError(f"{source}: 'networks' must be a list, got {_type_name(doc['networks'])}")
+    # lengths first: a list too long to be meant is refused before any entry is read
+    _check_length("networks", doc["networks"], MAX_LIST)
     networks = tuple(_parse_network(f"networks[{i}]", n) for i, n in enumerate(doc["networks"]))
-    labels = [n.label for n in networks]
-    for lab in labels:
-        if labels.count(lab) > 1:
-            raise ConfigError(f"networks: label '{lab}' is used twice; give each a distinct 'label'")
-    rows = tuple(_int_list("rows", doc["rows"], minimum=1))
-    seeds = tuple(_int_list("seeds", doc["seeds"], minimum=0))
+    seen: set = set()
+    for net in networks:
+        if net.label in seen:
+            raise ConfigError(f"networks: label '{net.label}' is used twice; give each a distinct 'label'")
+        seen.add(net.label)
+    rows = tuple(_int_list("rows", doc["rows"], minimum=1, maximum=MAX_ROWS))
+    seeds = tuple(_int_list("seeds", doc["seeds"], minimum=0, maximum=MAX_SEED))
     if not isinstance(doc["estimators"], list):
         raise ConfigError(f"{source}: 'estimators' must be a list, got {_type_name(doc['estimators'])}")
+    _check_length("estimators", doc["estimators"], MAX_LIST)
     estimators = tuple(_parse_estimator(f"estimators[{i}]", e) for i, e in enumerate(doc["estimators"]))
-    elabels = [e.label for e in estimators]
-    for lab in elabels:
-        if elabels.count(lab) > 1:
-            raise ConfigError(f"estimators: label '{lab}' is used twice; give one a distinct 'label' setting")
+    seen = set()
+    for est in estimators:
+        if est.label in seen:
+            raise ConfigError(f"estimators: label '{est.label}' is used twice; give one a distinct 'label' setting")
+        seen.add(est.label)
     q = doc.get("queries", {}) or {}
     if not isinstance(q, Mapping):
         raise ConfigError(f"queries: expected a mapping, got {_type_name(q)}")
     _check_keys("queries", q, QUERY_KEYS)
     count = q.get("count", 50)
-    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-        raise ConfigError(f"queries.count: expected a whole number of at least 1, got {count!r}")
+    _whole("queries.count", count, 1, MAX_QUERY_COUNT)
     kinds = q.get("kinds", ["do"])
     if isinstance(kinds, str):
         kinds = [kinds]
@@ -245,24 +334,33 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
     # YAML reads a bare `null` as nothing; in this list it can only mean the null-query kind
     kinds = ["null" if k is None else k for k in kinds]
     for k in kinds:
-        if k not in QUERY_KINDS:
-            raise ConfigError(f"queries.kinds: unknown query kind '{k}'{did_you_mean(k, QUERY_KINDS)}; kinds are: {', '.join(QUERY_KINDS)}")
+        if not isinstance(k, str) or k not in QUERY_KINDS:
+            raise ConfigError(
+                f"queries.kinds: unknown query kind {short_repr(k)}{did_you_mean(k, QUERY_KINDS)}; "
+                f"kinds are: {', '.join(QUERY_KINDS)}"
+            )
+    # a kind listed twice would get two shares of the count and fill only one
+    _distinct("queries.kinds", kinds, "kind")
     qseed = q.get("seed", 0)
     if isinstance(qseed, bool) or not isinstance(qseed, int):
-        raise ConfigError(f"queries.seed: expected a whole number, got {qseed!r}")
+        raise ConfigError(f"queries.seed: expected a whole number, got {short_repr(qseed)}")
+    _whole("queries.seed", qseed, 0, MAX_SEED)
     ex = doc.get("experiments") or {}
     if not isinstance(ex, Mapping):
         raise ConfigError(f"experiments: expected a mapping, got {_type_name(ex)}")
     _check_keys("experiments", ex, EXPERIMENT_KEYS)
-    targets = ex.get("targets", [])
-    if not isinstance(targets, list) or not all(isinstance(t, str) for t in targets):
-        raise ConfigError("experiments.targets: expected a list of variable names")
+    targets = _name_list("experiments.targets", ex.get("targets", []))
     ex_count = ex.get("count", 0)
     if isinstance(ex_count, bool) or not isinstance(ex_count, int) or ex_count < 0:
-        raise ConfigError(f"experiments.count: expected a whole number, got {ex_count!r}")
+        raise ConfigError(f"experiments.count: expected a whole number, got {short_repr(ex_count)}")
+    if targets and ex_count:
+        # with targets the count was never used
+        raise ConfigError("experiments: give 'targets' (variable names) or 'count' (a seeded choice), not both")
     per = ex.get("rows_per_target", 0)
     if isinstance(per, bool) or not isinstance(per, int) or per < 0:
-        raise ConfigError(f"experiments.rows_per_target: expected a whole number, got {per!r}")
+        raise ConfigError(f"experiments.rows_per_target: expected a whole number, got {short_repr(per)}")
+    if per > MAX_ROWS:
+        raise ConfigError(f"experiments.rows_per_target: {short_repr(per)} is above the maximum of {MAX_ROWS:,}")
     if ex and per == 0:
         raise ConfigError("experiments.rows_per_target: give the number of experimental rows per target")
     if ex and not targets and ex_count == 0:
@@ -273,17 +371,24 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
     if not isinstance(metrics, list) or not metrics:
         raise ConfigError("metrics: expected a non-empty list")
     for m in metrics:
-        if m not in METRIC_NAMES:
-            raise ConfigError(f"metrics: unknown metric '{m}'{did_you_mean(m, METRIC_NAMES)}; metrics are: {', '.join(METRIC_NAMES)}")
+        if not isinstance(m, str) or m not in METRIC_NAMES:
+            raise ConfigError(
+                f"metrics: unknown metric {short_repr(m)}{did_you_mean(m, METRIC_NAMES)}; metrics are: {', '.join(METRIC_NAMES)}"
+            )
+    _distinct("metrics", metrics, "metric")
     executor = doc.get("executor", "local")
-    if executor not in EXECUTORS:
-        raise ConfigError(f"executor: unknown executor '{executor}'{did_you_mean(executor, EXECUTORS)}; executors are: local, ray")
+    if not isinstance(executor, str) or executor not in EXECUTORS:
+        raise ConfigError(
+            f"executor: unknown executor {short_repr(executor)}{did_you_mean(executor, EXECUTORS)}; executors are: local, ray"
+        )
     workers = doc.get("workers", 1)
     if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
-        raise ConfigError(f"workers: expected a whole number of at least 1, got {workers!r}")
+        raise ConfigError(f"workers: expected a whole number of at least 1, got {short_repr(workers)}")
     boot = doc.get("bootstrap", 1000)
     if isinstance(boot, bool) or not isinstance(boot, int) or not (boot == 0 or boot >= MIN_BOOTSTRAP):
-        raise ConfigError(f"bootstrap: expected 0 (no interval) or a whole number of at least {MIN_BOOTSTRAP}, got {boot!r}")
+        raise ConfigError(f"bootstrap: expected 0 (no interval) or a whole number of at least {MIN_BOOTSTRAP}, got {short_repr(boot)}")
+    if boot > MAX_BOOTSTRAP:
+        raise ConfigError(f"bootstrap: {short_repr(boot)} resamples; at most {MAX_BOOTSTRAP:,} are allowed")
     cfg = ExperimentConfig(
         name=str(name), output=output, networks=networks, rows=rows, seeds=seeds, estimators=estimators,
         query_count=count, query_kinds=tuple(kinds), query_seed=qseed, experiment_targets=tuple(targets),
@@ -293,6 +398,11 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
     if cfg.grid_size == 0:
         empty = [k for k, v in (("networks", networks), ("rows", rows), ("seeds", seeds), ("estimators", estimators)) if not v]
         raise ConfigError(f"{source}: the grid is empty: no {', no '.join(empty)}")
+    if cfg.grid_size > MAX_RUNS:
+        raise ConfigError(
+            f"{source}: the grid has {cfg.grid_size:,} runs (networks x rows x seeds x estimators); "
+            f"at most {MAX_RUNS:,} are allowed"
+        )
     return cfg
 
 
@@ -322,9 +432,7 @@ def load_config(path: str | os.PathLike) -> ExperimentConfig:
         line = data.count(b"\n", 0, exc.start) + 1
         raise ConfigError(f"{source}, line {line}: not UTF-8 text (byte 0x{data[exc.start]:02x})") from None
     try:
-        doc = yaml.safe_load(text)
+        doc = load_yaml(text)
     except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f", line {mark.line + 1}" if mark is not None else ""
-        raise ConfigError(f"{source}{where}: not valid YAML ({getattr(exc, 'problem', exc)})") from None
+        raise ConfigError(yaml_problem(source, exc)) from None
     return parse_config(doc, source)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import inspect
 
-from ..errors import ConfigError, IntervgnnError, did_you_mean
+from ..errors import ConfigError, IntervgnnError, did_you_mean, short_repr
 
 __all__ = ["ESTIMATORS", "make_estimator", "check_settings"]
 
@@ -89,11 +89,13 @@ def check_settings(where: str, kind: str, settings: dict) -> None:
         params.pop("cut", None)
     for key, value in settings.items():
         if not isinstance(key, str):
-            raise ConfigError(f"{where}: setting names must be text, got {key!r}")
+            raise ConfigError(f"{where}: setting names must be text, got {short_repr(key)}")
         if key in _RESERVED:
             raise ConfigError(f"{where}: '{key}' is set by the harness ({_RESERVED[key]})")
         if key not in params:
-            raise ConfigError(f"{where}: unknown setting '{key}'{did_you_mean(key, params)}; settings are: {', '.join(params)}")
+            raise ConfigError(
+                f"{where}: unknown setting {short_repr(key)}{did_you_mean(key, params)}; settings are: {', '.join(params)}"
+            )
         default = params[key].default
         if default is inspect.Parameter.empty or default is None or value is None:
             continue
@@ -104,12 +106,16 @@ def check_settings(where: str, kind: str, settings: dict) -> None:
         if expected is str and key == "alpha" and isinstance(value, (int, float)):
             ok = True
         if not ok:
-            raise ConfigError(f"{where}.{key}: expected {expected.__name__}, got {value!r}")
+            raise ConfigError(f"{where}.{key}: expected {expected.__name__}, got {short_repr(value)}")
     # the values themselves (ranges, names) are checked by the estimator, as fit would
     try:
         make_estimator(kind, settings, seed=0)._check_settings()
     except IntervgnnError as exc:
-        raise ConfigError(f"{where}: {exc}") from None
+        message = str(exc)
+        # a message about one setting ("lr must be above 0, got -1") gets its key path:
+        # estimators[1].neural.lr must be above 0, got -1
+        sep = "." if message.split(" ", 1)[0] in params else ": "
+        raise ConfigError(f"{where}{sep}{message}") from None
 
 
 def make_estimator(kind: str, settings: dict, seed: int):

@@ -12,7 +12,7 @@ from dataclasses import asdict, dataclass
 import numpy as np
 
 from ..bn import load_network
-from ..errors import ConfigError, UnsupportedQuery, ZeroEvidenceError, did_you_mean
+from ..errors import ConfigError, UnsupportedQuery, ZeroEvidenceError, did_you_mean, shorten
 from ..eval.queries import EvalQuery, make_query_set
 from ..table import Table
 from .config import EstimatorSpec, ExperimentConfig, NetworkSpec
@@ -104,11 +104,19 @@ def prepared_network(spec: NetworkSpec, count: int, kinds: tuple[str, ...], qsee
                 f"network '{spec.label}': hidden variable '{h}' is not in the network{did_you_mean(h, net.variables)}"
             )
     observed = tuple(v for v in net.variables if v not in hidden)
+    if not observed:
+        raise ConfigError(f"network '{spec.label}': 'hidden' lists every variable; leave some observed")
     if hidden:
         graph = net.graph.project_out(sorted(hidden))
     else:
         graph = net.graph
     queries = tuple(make_query_set(net, count, kinds=kinds, seed=qseed, observed=observed))
+    if not queries:
+        # every run would answer nothing and the summary would be empty
+        raise ConfigError(
+            f"network '{spec.label}': no query of the kinds {', '.join(kinds)} can be drawn from its "
+            f"{len(observed)} observed variable(s); hide fewer variables or choose other kinds"
+        )
     if hidden:
         from ..identify import identify
 
@@ -127,6 +135,10 @@ def prepared_network(spec: NetworkSpec, count: int, kinds: tuple[str, ...], qsee
     if ex_count and not ex_targets:
         rng = np.random.default_rng(qseed)
         cands = [v for v in observed if net.graph.descendants(v)]
+        if not cands:
+            raise ConfigError(
+                f"network '{spec.label}': experiments.count: no observed variable has a descendant to experiment on"
+            )
         pick = rng.choice(len(cands), size=min(ex_count, len(cands)), replace=False)
         targets = tuple(cands[i] for i in sorted(pick))
     return Prepared(net, observed, graph, queries, targets)
@@ -139,16 +151,36 @@ def check_networks(cfg: ExperimentConfig) -> None:
     ------
     ConfigError
         A hidden variable the network lacks, an experiment target that no
-        network observes, or a network observing none of the targets.
+        network observes, or a network observing none of the targets; a
+        network with every variable hidden or no query to draw; more rows
+        than one sampling call may draw from a network.
     BIFParseError
         A network file that cannot be read.
     """
-    observed: list[str] = []
+    from ..bn.sampling import MAX_SAMPLE_CELLS
+
+    observed: dict[str, None] = {}  # ordered and linear to search
     for net in cfg.networks:
         prep = prepared_network(
             net, cfg.query_count, cfg.query_kinds, cfg.query_seed, cfg.experiment_targets, cfg.experiment_count
         )
-        observed += [v for v in prep.observed if v not in observed]
+        observed.update(dict.fromkeys(prep.observed))
+        for i, est in enumerate(cfg.estimators):  # back-door pairs name variables every network must observe
+            for j, pair in enumerate(est.settings.get("pairs") or ()):
+                for v in pair:
+                    if v not in prep.observed:
+                        raise ConfigError(
+                            f"estimators[{i}].{est.kind}.pairs[{j}]: '{shorten(v)}' is not an observed variable of "
+                            f"network '{net.label}'{did_you_mean(v, prep.observed)}"
+                        )
+        # each sampling call of a run draws at most MAX_SAMPLE_CELLS rows x variables
+        n_vars = len(prep.net.variables)
+        for key, n in (("rows", max(cfg.rows)), ("experiments.rows_per_target", cfg.rows_per_target)):
+            if n * n_vars > MAX_SAMPLE_CELLS:
+                raise ConfigError(
+                    f"{key}: {n:,} rows of network '{net.label}' ({n_vars} variables) are more than a run may "
+                    f"draw ({MAX_SAMPLE_CELLS:,} values); at most {MAX_SAMPLE_CELLS // n_vars:,} rows for this network"
+                )
     for t in cfg.experiment_targets:
         if t not in observed:
             raise ConfigError(
@@ -186,6 +218,10 @@ def execute_run(spec: RunSpec, cfg: ExperimentConfig) -> dict:
         )
         table = training_rows(prep, spec.rows, spec.seed, cfg.rows_per_target)
         est = make_estimator(spec.estimator.kind, spec.estimator.settings, spec.seed)
+        if spec.estimator.kind == "backdoor" and est.pairs is None:
+            # it trains one classifier per (treatment, target) pair in fit: train those the query set asks
+            est.set_params(pairs=sorted({(q.do[0][0], q.target[0]) for q in prep.queries
+                                         if len(q.target) == 1 and len(q.do) == 1 and not q.given}))
         t0 = time.perf_counter()
         est.fit(table, prep.graph)
         fit_s = time.perf_counter() - t0
