@@ -8,6 +8,7 @@ import hashlib
 import io
 import json
 import os
+import re
 from collections.abc import Mapping
 
 import numpy as np
@@ -15,23 +16,28 @@ import torch
 
 from .._io import atomic_open, make_folder
 from ..bn.network import CausalNetwork
-from ..errors import CheckpointError, DataError, IntervgnnError, NotIdentified, QueryError
+from ..errors import CheckpointError, DataError, IntervgnnError, NotIdentified, QueryError, short_repr, shorten
 from ..graph import CausalGraph
 from ..models.answer import conditionals, monte_carlo, table_rows_needed, tabulate_cpts
 from ..models.shrinkage import Mixture, mixture_rows, mixture_weights
 from ..models.stats import MAX_FAMILY_CELLS, FamilyCells, GroupCells, config_index, count_cells
 from ..models.training import init_output_bias, train_vgae
 from ..models.vgae import FamilyBatch, InterventionalVGAE, family_edges
-from ..query import Query
+from ..query import Query, check_seed
 from ..table import Table
-from .base import Estimator, check_fit_inputs
+from .base import ChecksIdentification, Estimator, check_fit_inputs
 
 __all__ = ["NeuralEstimator", "NotIdentified", "WEIGHTS_FILE", "META_FILE", "CHECKPOINT_FORMAT"]
 
 WEIGHTS_FILE = "weights.pt"
 META_FILE = "model.json"
 #: format tag of ``model.json``
-CHECKPOINT_FORMAT = "intervgnn-neural-2"
+CHECKPOINT_FORMAT = "intervgnn-neural-3"
+#: largest ``model.json`` read, in bytes (a description takes well under a kilobyte per variable)
+MAX_META_BYTES = 64 * 2**20
+#: the fields of ``model.json``, each required
+_META_FIELDS = ("format", "package_version", "estimator", "nodes", "edges", "confounded", "states", "settings",
+                "models", "rows", "weights_sha256", "sha256")
 _MODES = ("auto", "exact", "monte_carlo")
 
 
@@ -56,7 +62,7 @@ def torch_threads(threads: int | None):
         torch.set_num_threads(old)
 
 
-class NeuralEstimator(Estimator):
+class NeuralEstimator(ChecksIdentification, Estimator):
     """Answer do-queries with interventional VGAEs trained on the rows' sufficient statistics.
 
     ``fit`` counts the distinct family configurations of the rows once (an
@@ -204,7 +210,7 @@ class NeuralEstimator(Estimator):
     # ------------------------------------------------------------------ fit
     def _check_settings(self) -> None:
         if self.mode not in _MODES:
-            raise QueryError(f"mode must be one of {', '.join(_MODES)}; got '{self.mode}'")
+            raise QueryError(f"mode must be one of {', '.join(_MODES)}; got {short_repr(self.mode)}")
         positive = ("dim", "hidden", "z_dim", "num_layers", "steps", "latent_steps", "latent_restarts", "z_samples",
                     "mc_samples", "u_states", "max_table_rows")
         for key in positive + ("encoder_hidden", "threads"):
@@ -212,13 +218,23 @@ class NeuralEstimator(Estimator):
             if key in ("encoder_hidden", "threads") and value is None:
                 continue
             if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
-                raise DataError(f"{key} must be a positive integer, got {value!r}")
+                raise DataError(f"{key} must be a positive integer, got {short_repr(value)}")
         if isinstance(self.folds, bool) or not isinstance(self.folds, (int, np.integer)) or self.folds < 2:
-            raise DataError(f"folds must be a whole number of at least 2, got {self.folds!r}")
+            raise DataError(f"folds must be a whole number of at least 2, got {short_repr(self.folds)}")
+        # sizes beyond these cannot be meant: the model or its samples would not fit in memory, or
+        # training would not end (the defaults are far below: dim 16, steps 50, mc_samples 20000)
+        most = {"dim": 4096, "hidden": 4096, "z_dim": 4096, "encoder_hidden": 4096, "num_layers": 64,
+                "steps": 10**6, "latent_steps": 10**6, "latent_restarts": 100, "folds": 100,
+                "z_samples": 10**4, "mc_samples": 10**7, "u_states": 1000}
+        for key, limit in most.items():
+            value = getattr(self, key)
+            if value is not None and value > limit:
+                raise DataError(f"{key} must be at most {limit:,}, got {short_repr(value)}")
         for key in ("lr", "latent_lr", "weight_decay", "prior_counts"):
             value = getattr(self, key)
-            if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
-                raise DataError(f"{key} must be a number, got {value!r}")
+            # NaN, infinity and whole numbers beyond the largest float are not numbers Adam can use
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not abs(value) <= float(np.finfo(np.float64).max):
+                raise DataError(f"{key} must be a number, got {short_repr(value)}")
         for key in ("lr", "latent_lr"):
             if not getattr(self, key) > 0:
                 raise DataError(f"{key} must be above 0, got {getattr(self, key)!r}")
@@ -226,10 +242,9 @@ class NeuralEstimator(Estimator):
             raise DataError(f"weight_decay must be 0 or more, got {self.weight_decay!r}")
         if not 0 < self.prior_counts <= 1:
             raise DataError(f"prior_counts must lie in (0, 1], got {self.prior_counts!r}")
-        if isinstance(self.seed, bool) or not isinstance(self.seed, (int, np.integer)) or self.seed < 0:
-            raise DataError(f"seed must be a non-negative whole number, got {self.seed!r}")
+        check_seed(self.seed)
         if self.unidentified not in ("refuse", "answer"):
-            raise QueryError(f"unidentified must be 'refuse' or 'answer'; got '{self.unidentified}'")
+            raise QueryError(f"unidentified must be 'refuse' or 'answer'; got {short_repr(self.unidentified)}")
 
     def _groups(self, graph: CausalGraph | None = None) -> list[list[int]]:
         """Node indices of each confounded component (two or more nodes)."""
@@ -498,21 +513,6 @@ class NeuralEstimator(Estimator):
         return conditional
 
     # ---------------------------------------------------------------- query
-    def identification(self, q: Query):
-        """Identification of the query's shape on the diagram (cached; None without hidden common causes)."""
-        if not self.graph_.has_hidden_confounding or not q.do:
-            return None
-        key = (q.targets, tuple(sorted(v for v, _ in q.do)), tuple(sorted(v for v, _ in q.given)))
-        if key not in self._identifications:
-            from ..identify import identify
-
-            self._identifications[key] = identify(self.graph_, list(q.targets), list(key[1]), list(key[2]))
-        return self._identifications[key]
-
-    def _identified(self, q: Query):
-        ident = self.identification(q)
-        return None if ident is None else ident.identifiable
-
     def _answer(self, q: Query):
         ident = self.identification(q)
         if ident is not None and not ident.identifiable and self.unidentified == "refuse":
@@ -555,20 +555,27 @@ class NeuralEstimator(Estimator):
         ``weights.pt`` holds the trained models' weights and the counted
         family configurations (the sufficient statistics the CPTs are built
         from; they summarise the training rows). ``model.json`` records the
-        SHA-256 of ``weights.pt`` so that a changed weights file is refused
-        on load.
+        SHA-256 of ``weights.pt`` (field ``weights_sha256``) and the SHA-256
+        of its own other fields in canonical JSON (field ``sha256``), so that
+        a changed weights file or a changed description is refused on load.
+        The hashes are not keyed: they catch damage and careless edits, not
+        a forgery by someone who recomputes them.
+
+        Raises
+        ------
+        CheckpointError
+            A description that :meth:`load` would refuse (for example a state
+            named by the empty string); nothing is written then.
+        WriteError
+            The folder or a file cannot be written.
         """
         self._check_fitted()
         from .. import __version__
 
         path = os.fspath(path)
-        make_folder(path)
-        weights = os.path.join(path, WEIGHTS_FILE)
         buffer = io.BytesIO()
         torch.save(self._tensors(), buffer)
         blob = buffer.getvalue()
-        with atomic_open(weights, "wb") as fh:
-            fh.write(blob)
         params = self.get_params()
         params["progress"] = False
         meta = {
@@ -584,6 +591,12 @@ class NeuralEstimator(Estimator):
             "rows": int(self.n_rows_),
             "weights_sha256": hashlib.sha256(blob).hexdigest(),
         }
+        meta = json.loads(json.dumps(meta, default=_plain))  # as load reads it back (tuples become lists)
+        meta["sha256"] = _description_hash(meta)
+        _check_description(type(self), meta, os.path.join(path, META_FILE))  # what is saved must load
+        make_folder(path)
+        with atomic_open(os.path.join(path, WEIGHTS_FILE), "wb") as fh:
+            fh.write(blob)
         with atomic_open(os.path.join(path, META_FILE), "w") as fh:
             json.dump(meta, fh, indent=2)
 
@@ -591,62 +604,45 @@ class NeuralEstimator(Estimator):
     def load(cls, path: str | os.PathLike, graph: CausalGraph | None = None, table: Table | None = None) -> NeuralEstimator:
         """Load a saved model; refuse it when it does not match ``graph`` or ``table``.
 
+        Every field of ``model.json`` is checked for its type and range, and
+        both recorded hashes must match (of ``weights.pt``, and of the
+        description's other fields), before anything is built.
+
         Raises
         ------
         CheckpointError
-            Missing or unreadable files, a model saved in another format, a
-            weights file whose hash differs from the one recorded, weights
-            that do not fit the recorded model, or a graph / data whose
-            variables, edges or states differ.
+            Missing or unreadable files, a model saved in another format or
+            by a newer intervgnn (another major or minor version), a
+            malformed description or bad settings, a weights file or a
+            description changed after saving (hash mismatch), weights that do
+            not fit the recorded model, or a graph / data whose variables,
+            edges or states differ.
         """
         path = os.fspath(path)
         meta_path, weights_path = os.path.join(path, META_FILE), os.path.join(path, WEIGHTS_FILE)
         for p in (meta_path, weights_path):
             if not os.path.exists(p):
                 raise CheckpointError(f"{path}: not a saved model (missing {os.path.basename(p)})")
-        try:
-            with open(meta_path, encoding="utf-8") as fh:
-                meta = json.load(fh)
-        except (OSError, ValueError) as exc:
-            raise CheckpointError(f"{meta_path}: cannot read the model description ({exc})") from None
-        if not isinstance(meta, dict) or not str(meta.get("format", "")).startswith("intervgnn-neural-"):
-            raise CheckpointError(f"{meta_path}: not an intervgnn neural model description")
-        if meta.get("format") != CHECKPOINT_FORMAT:
-            raise CheckpointError(
-                f"{meta_path}: saved in format '{meta.get('format')}' by an earlier version of intervgnn; "
-                f"this version reads '{CHECKPOINT_FORMAT}'. Fit the model again."
-            )
+        meta = _read_description(meta_path)
+        _check_format(meta, meta_path)
         try:
             with open(weights_path, "rb") as fh:
                 blob = fh.read()
         except OSError as exc:
             raise CheckpointError(f"{weights_path}: cannot read the weights ({exc.strerror or type(exc).__name__})") from None
-        if hashlib.sha256(blob).hexdigest() != meta.get("weights_sha256"):
-            raise CheckpointError(f"{weights_path}: the weights file was changed after saving (hash mismatch); refusing it")
-        try:
-            saved_graph = CausalGraph(
-                [tuple(e) for e in meta["edges"]], nodes=meta["nodes"], bidirected=[tuple(e) for e in meta.get("confounded", [])]
+        saved_graph, states, settings, keys, rows = _check_description(cls, meta, meta_path)
+        if _description_hash(meta) != meta["sha256"]:
+            raise CheckpointError(
+                f"{meta_path}: the model description was changed after saving (hash mismatch); refusing it. "
+                "Restore the saved files or fit the model again."
             )
-            states = {v: tuple(s) for v, s in meta["states"].items()}
-            settings = dict(meta["settings"])
-            keys = [str(k) for k in meta["models"]]
-            rows = int(meta["rows"])
-        except Exception as exc:  # malformed description
-            raise CheckpointError(f"{meta_path}: malformed model description ({exc})") from None
+        if hashlib.sha256(blob).hexdigest() != meta["weights_sha256"]:
+            raise CheckpointError(f"{weights_path}: the weights file was changed after saving (hash mismatch); refusing it")
         if graph is not None:
             _check_same_graph(saved_graph, graph, path)
         if table is not None:
             _check_same_states(states, table, path)
-        known = set(cls().get_params())
-        unknown = sorted(str(k) for k in settings if k not in known)
-        if unknown:
-            raise CheckpointError(f"{meta_path}: unknown setting '{unknown[0]}' in the model description")
-        settings["device"] = "cpu"  # the weights are stored from the CPU; answering needs no other device
-        est = cls(**settings)
-        try:
-            est._check_settings()
-        except IntervgnnError as exc:
-            raise CheckpointError(f"{meta_path}: unusable settings ({exc})") from None
+        est = cls(**settings)  # checked by _check_description
         try:
             tensors = torch.load(io.BytesIO(blob), map_location="cpu", weights_only=True)
             est.graph_, est.states_, est.n_rows_ = saved_graph, states, rows
@@ -672,9 +668,211 @@ class NeuralEstimator(Estimator):
             est.train_results_ = {}
         except Exception as exc:
             raise CheckpointError(f"{weights_path}: the weights do not fit the recorded model ({type(exc).__name__})") from None
-        with torch_threads(est.threads):
-            est._prepare_answers()
+        try:
+            with torch_threads(est.threads):
+                est._prepare_answers()
+        except Exception as exc:  # the recorded model cannot answer: the files are not as saved
+            raise CheckpointError(
+                f"{path}: the saved model cannot answer queries ({type(exc).__name__}: {shorten(str(exc), 120)}); "
+                "fit the model again"
+            ) from None
         return est
+
+
+def _plain(value):
+    """JSON form of a numpy scalar in the settings (``json.dumps`` hook)."""
+    if isinstance(value, np.bool_):
+        return bool(value)
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.floating):
+        return float(value)
+    raise TypeError(f"{type(value).__name__} is not JSON serialisable")
+
+
+def _description_hash(meta: Mapping) -> str:
+    """SHA-256 of every field of ``model.json`` but ``sha256``, as canonical JSON (sorted keys, no spaces).
+
+    The fields include ``weights_sha256``, so this one hash covers the weights too.
+    """
+    canonical = json.dumps({k: v for k, v in meta.items() if k != "sha256"}, sort_keys=True, separators=(",", ":"),
+                           ensure_ascii=True)
+    return hashlib.sha256(canonical.encode("ascii")).hexdigest()
+
+
+def _read_description(meta_path: str):
+    """The parsed ``model.json``; any reading or parsing failure is a :class:`CheckpointError`."""
+    try:
+        with open(meta_path, "rb") as fh:
+            raw = fh.read(MAX_META_BYTES + 1)
+    except OSError as exc:
+        raise CheckpointError(
+            f"{meta_path}: cannot read the model description ({exc.strerror or type(exc).__name__})"
+        ) from None
+    if len(raw) > MAX_META_BYTES:
+        raise CheckpointError(
+            f"{meta_path}: the model description is larger than {MAX_META_BYTES // 2**20} MiB; not a saved model"
+        )
+    try:
+        return json.loads(raw.decode("utf-8"))
+    except RecursionError:
+        raise CheckpointError(f"{meta_path}: cannot read the model description (JSON nested too deeply)") from None
+    except ValueError as exc:  # not UTF-8, not JSON, or an integer too long to read
+        raise CheckpointError(f"{meta_path}: cannot read the model description ({shorten(str(exc), 120)})") from None
+
+
+def _version_numbers(version) -> tuple[int, int, int] | None:
+    """``(major, minor, patch)`` of a version string such as ``0.2.0`` or ``0.3.0rc1``; None if it is not one."""
+    if not isinstance(version, str):
+        return None
+    m = re.fullmatch(r"(\d{1,6})\.(\d{1,6})(?:\.(\d{1,6}))?([A-Za-z0-9.+-]{0,40})", version)
+    return None if m is None else (int(m[1]), int(m[2]), int(m[3] or 0))
+
+
+def _check_format(meta, meta_path: str) -> None:
+    """Refuse a description of another format, or one saved by a newer intervgnn."""
+    from .. import __version__
+
+    fmt = meta.get("format") if isinstance(meta, dict) else None
+    prefix = "intervgnn-neural-"
+    if not isinstance(fmt, str) or not fmt.startswith(prefix):
+        raise CheckpointError(f"{meta_path}: not an intervgnn neural model description")
+    if fmt != CHECKPOINT_FORMAT:
+        number, ours = fmt[len(prefix):], int(CHECKPOINT_FORMAT[len(prefix):])
+        if re.fullmatch(r"[0-9]{1,6}", number) and int(number) > ours:
+            raise CheckpointError(
+                f"{meta_path}: saved in format {short_repr(fmt)} by a newer version of intervgnn; this version reads "
+                f"'{CHECKPOINT_FORMAT}'. Upgrade intervgnn to load it, or fit the model again."
+            )
+        if re.fullmatch(r"[0-9]{1,6}", number):
+            raise CheckpointError(
+                f"{meta_path}: saved in format {short_repr(fmt)} by an earlier version of intervgnn; "
+                f"this version reads '{CHECKPOINT_FORMAT}'. Fit the model again."
+            )
+        raise CheckpointError(f"{meta_path}: unknown format {short_repr(fmt)}; this version reads '{CHECKPOINT_FORMAT}'")
+    version = meta.get("package_version")
+    saved = _version_numbers(version)
+    if saved is None:
+        raise CheckpointError(
+            f"{meta_path}: package_version must be a version such as '{__version__}', got {short_repr(version)}"
+        )
+    ours = _version_numbers(__version__)
+    # a newer bug-fix release (same major and minor version) writes the same format; a newer minor or major
+    # version may mean the same fields differently
+    if ours is not None and saved[:2] > ours[:2]:
+        raise CheckpointError(
+            f"{meta_path}: saved by intervgnn {version}, newer than this {__version__}; upgrade intervgnn to load "
+            "it, or fit the model again with this version"
+        )
+
+
+def _names(value, what: str, meta_path: str) -> list[str]:
+    """``value`` as a list of distinct non-empty strings, or a :class:`CheckpointError` naming ``what``."""
+    if not isinstance(value, list):
+        raise CheckpointError(f"{meta_path}: {what} must be a list of names, got {short_repr(value)}")
+    for item in value:
+        if not isinstance(item, str) or not item:
+            raise CheckpointError(f"{meta_path}: {what} must be non-empty strings, got {short_repr(item)}")
+    if len(set(value)) != len(value):
+        dup = next(v for v in value if value.count(v) > 1)
+        raise CheckpointError(f"{meta_path}: {what} lists {short_repr(dup)} twice")
+    return value
+
+
+def _pairs(value, what: str, meta_path: str) -> list[tuple[str, str]]:
+    """``value`` as a list of pairs of strings, or a :class:`CheckpointError` naming ``what``."""
+    if not isinstance(value, list):
+        raise CheckpointError(f"{meta_path}: {what} must be a list of pairs of names, got {short_repr(value)}")
+    for item in value:
+        if not (isinstance(item, list) and len(item) == 2 and all(isinstance(w, str) for w in item)):
+            raise CheckpointError(f"{meta_path}: {what} must be pairs of names, got {short_repr(item)}")
+    return [tuple(item) for item in value]
+
+
+def _whole(value) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool)
+
+
+def _check_description(cls, meta: dict, meta_path: str):
+    """Check the type and range of every field of a parsed ``model.json`` (format and version already checked).
+
+    Returns ``(graph, states, settings, model keys, rows)``; ``settings`` are
+    checked by the estimator's own settings check, with ``device`` set to
+    the CPU.
+    """
+    missing = [k for k in _META_FIELDS if k not in meta]
+    if missing:
+        raise CheckpointError(f"{meta_path}: malformed model description (no field '{missing[0]}')")
+    extra = sorted(k for k in meta if k not in _META_FIELDS)
+    if extra:
+        raise CheckpointError(f"{meta_path}: malformed model description (unknown field {short_repr(extra[0])})")
+    if meta["estimator"] != "neural":
+        raise CheckpointError(f"{meta_path}: estimator must be 'neural', got {short_repr(meta['estimator'])}")
+    for key in ("weights_sha256", "sha256"):
+        if not (isinstance(meta[key], str) and re.fullmatch(r"[0-9a-f]{64}", meta[key])):
+            raise CheckpointError(f"{meta_path}: {key} must be 64 hexadecimal digits, got {short_repr(meta[key])}")
+    nodes = _names(meta["nodes"], "nodes", meta_path)
+    edges = _pairs(meta["edges"], "edges", meta_path)
+    confounded = _pairs(meta["confounded"], "confounded", meta_path)
+    try:
+        graph = CausalGraph(edges, nodes=nodes, bidirected=confounded)
+    except IntervgnnError as exc:
+        raise CheckpointError(f"{meta_path}: the recorded graph is not valid ({shorten(str(exc), 160)})") from None
+    raw = meta["states"]
+    if not isinstance(raw, dict):
+        raise CheckpointError(f"{meta_path}: states must map each variable to its states, got {short_repr(raw)}")
+    if set(raw) != set(nodes):
+        odd = sorted(set(raw) ^ set(nodes))[0]
+        raise CheckpointError(
+            f"{meta_path}: states must list exactly the graph's variables; {short_repr(odd)} "
+            + ("is not a variable of the graph" if odd in raw else "has no states")
+        )
+    states: dict[str, tuple[str, ...]] = {}
+    for v in nodes:
+        if not isinstance(raw[v], list) or not raw[v]:
+            raise CheckpointError(
+                f"{meta_path}: states of '{shorten(v)}' must be a non-empty list of names, got {short_repr(raw[v])}"
+            )
+        states[v] = tuple(_names(raw[v], f"states of '{shorten(v)}'", meta_path))
+    settings = meta["settings"]
+    if not isinstance(settings, dict):
+        raise CheckpointError(
+            f"{meta_path}: settings must be a mapping of setting names to values, got {short_repr(settings)}"
+        )
+    known = set(cls().get_params())
+    unknown = sorted(k for k in settings if k not in known)
+    if unknown:
+        raise CheckpointError(f"{meta_path}: unknown setting {short_repr(unknown[0])} in the model description")
+    absent = sorted(known - set(settings))
+    if absent:
+        raise CheckpointError(f"{meta_path}: the model description lacks the setting '{absent[0]}'")
+    for key in ("cut", "progress"):  # settings the estimator's check leaves to the caller
+        if not isinstance(settings[key], bool):
+            raise CheckpointError(
+                f"{meta_path}: unusable settings ({key} must be true or false, got {short_repr(settings[key])})"
+            )
+    if not isinstance(settings["device"], str):
+        raise CheckpointError(
+            f"{meta_path}: unusable settings (device must be a string, got {short_repr(settings['device'])})"
+        )
+    settings = {**settings, "device": "cpu"}  # the weights are stored from the CPU; answering needs no other device
+    try:
+        cls(**settings)._check_settings()
+    except (IntervgnnError, TypeError, ValueError) as exc:
+        raise CheckpointError(f"{meta_path}: unusable settings ({shorten(str(exc), 160)})") from None
+    groups = [c for c in graph.c_components() if len(c) > 1]
+    free = len(nodes) > sum(len(c) for c in groups)
+    keys = meta["models"]
+    expected = (settings["folds"] if free else 0) + (1 if groups else 0)
+    if not (isinstance(keys, list) and len(keys) == expected
+            and keys == ([f"fold{f}" for f in range(settings["folds"])] if free else []) + (["all"] if groups else [])):
+        raise CheckpointError(
+            f"{meta_path}: models must be the {expected} models the graph and settings call for, got {short_repr(keys)}"
+        )
+    rows = meta["rows"]
+    if not _whole(rows) or rows < 1:
+        raise CheckpointError(f"{meta_path}: rows must be a positive whole number, got {short_repr(rows)}")
+    return graph, states, settings, list(keys), rows
 
 
 def _check_same_graph(saved: CausalGraph, given: CausalGraph, path: str) -> None:
