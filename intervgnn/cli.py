@@ -12,13 +12,14 @@ import numpy as np
 
 from .bn import list_networks, load_network, network_info
 from .errors import ConfigError, IntervgnnError
+from .query import check_seed
+from .texts import CAUTION
 
-__all__ = ["main", "CAUTION"]
+__all__ = ["main", "CAUTION", "EXIT_NOT_IDENTIFIABLE"]
 
-CAUTION = (
-    "Caution: an estimate is only as good as the causal diagram and the data behind it. "
-    "It does not replace experiments, local rules or licensed professional judgement."
-)
+#: exit status of ``identify`` and ``estimate`` for a query that is not identifiable on the diagram
+#: (0: answered or identifiable; 2: an error in the input)
+EXIT_NOT_IDENTIFIABLE = 3
 
 
 def _assignments(items: Sequence[str] | None, flag: str) -> dict[str, str]:
@@ -84,6 +85,7 @@ def cmd_exact(args) -> int:
 
 
 def cmd_sample(args) -> int:
+    check_seed(args.seed, name="--seed")
     net = load_network(args.network)
     table = net.sample(args.rows, do=_assignments(args.do, "--do"), seed=args.seed)
     table.to_csv(args.out)
@@ -95,6 +97,7 @@ def _rows_and_graph(args):
     """Rows and diagram from --network (sampled) or --data/--graph."""
     from .userdata import load_graph, read_csv
 
+    check_seed(args.seed, name="--seed")
     if args.network:
         net = load_network(args.network)
         return net.sample(args.rows, seed=args.seed), net.graph, net
@@ -141,6 +144,7 @@ def cmd_estimate(args) -> int:
     from .estimators import NeuralEstimator, PluginEstimator
     from .userdata import load_graph, read_csv
 
+    check_seed(args.seed, name="--seed")
     do = _assignments(args.do, "--do")
     given = _assignments(args.given, "--given")
     truth = None
@@ -167,15 +171,27 @@ def cmd_estimate(args) -> int:
     try:
         dist = est.query(args.target, do=do, given=given)
     except NotIdentified as exc:
-        if not args.allow_unidentified or not hasattr(est, "unidentified"):
+        can_answer = "unidentified" in est.get_params()  # only the neural estimator models the hidden causes
+        if not args.allow_unidentified or not can_answer:
+            if args.json:
+                print(json.dumps({
+                    "query": exc.identification.query_text(), "identifiable": False, "estimate": None,
+                    "message": exc.identification.describe(), "estimator": label, "caution": CAUTION,
+                }, indent=2))
+                return EXIT_NOT_IDENTIFIABLE
             print(exc.identification.describe())
             print()
-            print("No estimate is given for a query that is not identifiable. Pass --allow-unidentified to see the")
-            print("neural model's number anyway; it will be marked NOT IDENTIFIED.")
+            if can_answer:
+                print("No estimate is given for a query that is not identifiable. Pass --allow-unidentified to see the")
+                print("neural model's number anyway; it will be marked NOT IDENTIFIED.")
+            else:
+                print(f"No estimate is given for a query that is not identifiable. The {args.estimator} estimator")
+                print("has no model of the hidden causes; --estimator neural --allow-unidentified gives the neural")
+                print("model's number, marked NOT IDENTIFIED.")
             print()
             print(CAUTION)
-            return 3
-        est.unidentified = "answer"
+            return EXIT_NOT_IDENTIFIABLE
+        est.set_params(unidentified="answer")
         dist = est.query(args.target, do=do, given=given)
         print(exc.identification.describe())
         print()
@@ -197,6 +213,19 @@ def cmd_estimate(args) -> int:
 
 
 def cmd_run(args) -> int:
+    """Run a sweep; Ctrl-C stops it with one line and exit code 130, the finished runs kept."""
+    try:
+        return _run_sweep(args)
+    except KeyboardInterrupt as exc:
+        if hasattr(exc, "finished"):  # RunsInterrupted (harness.executors): it counts the runs kept
+            print(f"intervgnn: {exc}", file=sys.stderr)
+        else:  # before the runs started, or while the summaries were written
+            print("intervgnn: interrupted; any finished runs are kept (run the same command with --resume to go on)",
+                  file=sys.stderr)
+    return 130  # 128 + SIGINT, the exit status of a program stopped by Ctrl-C (common practice, no source)
+
+
+def _run_sweep(args) -> int:
     from .harness import load_config, load_records, run_grid, summarise, write_outputs
     from .harness.summary import markdown_tables
 
@@ -246,7 +275,7 @@ def cmd_identify(args) -> int:
         }, indent=2))
     else:
         print(result.describe())
-    return 0
+    return 0 if result.identifiable else EXIT_NOT_IDENTIFIABLE
 
 
 def cmd_demo(args) -> int:
@@ -309,7 +338,10 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--out", required=True, help="folder to save the model in")
     s.set_defaults(func=cmd_fit)
 
-    s = sub.add_parser("estimate", help="estimate P(target | do(...), given) from a model or from rows")
+    s = sub.add_parser(
+        "estimate", help="estimate P(target | do(...), given) from a model or from rows",
+        epilog="Exit status: 0 answered, 2 an error in the input, 3 the query is not identifiable on the diagram.",
+    )
     src = s.add_argument_group("source (one of)")
     src.add_argument("--model", help="a folder saved by 'intervgnn fit'")
     src.add_argument("--network", help="sample rows from this network and fit an estimator")
@@ -346,7 +378,10 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--quiet", action="store_true", help="no progress bar")
     s.set_defaults(func=cmd_run)
 
-    s = sub.add_parser("identify", help="is P(target | do(...), given) identifiable on a diagram? print the estimand or the hedge")
+    s = sub.add_parser(
+        "identify", help="is P(target | do(...), given) identifiable on a diagram? print the estimand or the hedge",
+        epilog="Exit status: 0 identifiable, 2 an error in the input, 3 not identifiable.",
+    )
     s.add_argument("--graph", required=True, help="graph file (YAML); 'confounded' pairs mark hidden common causes")
     s.add_argument("--target", required=True, nargs="+")
     s.add_argument("--do", required=True, nargs="+", metavar="X", help="intervened variable(s)")

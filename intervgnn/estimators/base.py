@@ -5,9 +5,9 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 
 from ..distribution import Distribution
-from ..errors import DataError, NotFittedError, QueryError
+from ..errors import DataError, IntervgnnError, NotFittedError, did_you_mean, shorten
 from ..graph import CausalGraph
-from ..query import Query, make_query
+from ..query import Query, check_state, check_variable, make_query
 from ..table import Table
 
 __all__ = ["Estimator", "check_fit_inputs", "check_alpha"]
@@ -17,9 +17,12 @@ def check_alpha(alpha, allow_auto: bool = False) -> None:
     """Raise DataError unless ``alpha`` is a non-negative number (or ``"auto"`` where allowed)."""
     if allow_auto and alpha == "auto":
         return
-    if isinstance(alpha, bool) or not isinstance(alpha, (int, float)) or not alpha >= 0:
+    import sys
+
+    # NaN, infinity and whole numbers beyond the largest float are refused: each breaks every answer
+    if isinstance(alpha, bool) or not isinstance(alpha, (int, float)) or not 0 <= alpha <= sys.float_info.max:
         expected = "a non-negative number or 'auto'" if allow_auto else "a non-negative number"
-        raise DataError(f"alpha must be {expected}, got {alpha!r}")
+        raise DataError(f"alpha must be {expected}, got {shorten(repr(alpha))}")
 
 
 def check_fit_inputs(table: Table, graph: CausalGraph) -> Table:
@@ -48,10 +51,13 @@ def check_fit_inputs(table: Table, graph: CausalGraph) -> Table:
 class Estimator:
     """Base class: ``fit(table, graph)`` learns, ``query`` answers, ``effect`` contrasts.
 
-    Subclasses store their settings in ``__init__`` (nothing else), learn in
-    ``fit`` (which returns ``self``; learned attributes end in ``_``; a
-    second ``fit`` starts from scratch), and implement :meth:`_answer`. A
-    query never changes the estimator.
+    Estimators keep scikit-learn's contract: ``__init__`` stores each setting
+    unchanged under its own name and does nothing else (settings are checked
+    in ``fit``); :meth:`get_params` / :meth:`set_params` read and change them,
+    so ``sklearn.base.clone`` gives an unfitted copy; ``fit`` validates,
+    learns and returns ``self``; learned attributes end in ``_``; a second
+    ``fit`` starts from scratch. Subclasses implement :meth:`_answer`; a
+    query never changes what was learned and runs no training.
     """
 
     #: short name used by the harness and the command line
@@ -85,12 +91,15 @@ class Estimator:
         NotFittedError
             Before ``fit``.
         QueryError
-            Unknown variable or state, or a variable with two roles.
+            A name or state that is not a string, an unknown variable or
+            state, a variable with two roles, or an answer of more than
+            :data:`~intervgnn.query.MAX_ANSWER_ENTRIES` entries (checked
+            before any estimator's work starts).
         UnsupportedQuery
             This estimator cannot answer this kind of query.
         """
         self._check_fitted()
-        q = make_query(self.states_, target, do, given)
+        q = make_query(self.states_, target, do, given)  # the one check of names, states and answer size
         probs = self._answer(q)
         return Distribution(
             q.targets, [self.states_[t] for t in q.targets], probs, description=q.describe(), identified=self._identified(q)
@@ -112,23 +121,111 @@ class Estimator:
             Unknown variable or state.
         """
         self._check_fitted()
-        if outcome not in self.states_:
-            raise QueryError(f"unknown target variable '{outcome}'; variables are: {', '.join(sorted(self.states_))}")
-        if state not in self.states_[outcome]:
-            raise QueryError(
-                f"unknown state '{state}' for variable '{outcome}'; states are: {', '.join(sorted(self.states_[outcome]))}"
-            )
+        check_state(self.states_, check_variable(self.states_, outcome, "target"), state)
         pa = self.query(outcome, do={treatment: a}, given=given)[state]
         pb = self.query(outcome, do={treatment: b}, given=given)[state]
         return pa - pb
 
     def __repr__(self) -> str:
-        settings = ", ".join(f"{k}={v!r}" for k, v in self.get_params().items())
+        settings = ", ".join(f"{k}={v!r}" for k, v in self.get_params(deep=False).items())
         return f"{type(self).__name__}({settings})"
 
-    def get_params(self) -> dict:
-        """The settings given to ``__init__`` (scikit-learn style)."""
+    # ------------------------------------------------- scikit-learn contract
+    @classmethod
+    def _param_names(cls) -> tuple[str, ...]:
+        """The settings: the names of ``__init__``'s parameters, in signature order."""
         import inspect
 
-        sig = inspect.signature(type(self).__init__)
-        return {k: getattr(self, k) for k in sig.parameters if k != "self" and hasattr(self, k)}
+        params = inspect.signature(cls.__init__).parameters.values()
+        return tuple(p.name for p in params if p.name != "self" and p.kind not in (p.VAR_POSITIONAL, p.VAR_KEYWORD))
+
+    def get_params(self, deep: bool = True) -> dict:
+        """The settings given to ``__init__``, by name (the scikit-learn contract).
+
+        Parameters
+        ----------
+        deep : bool, default True
+            Also list the settings of a setting that is itself an estimator
+            (a scikit-learn classifier), as ``setting__name``.
+
+        Returns
+        -------
+        dict
+            Each setting exactly as stored; ``sklearn.base.clone`` builds an
+            unfitted copy from it.
+        """
+        out = {}
+        for key in self._param_names():
+            value = getattr(self, key)
+            if deep and hasattr(value, "get_params") and not isinstance(value, type):
+                out.update((f"{key}__{k}", v) for k, v in value.get_params().items())
+            out[key] = value
+        return out
+
+    def set_params(self, **params) -> Estimator:
+        """Change settings by name; ``setting__name`` reaches into a setting that is an estimator.
+
+        The new values are checked by the next ``fit`` (as the constructor's
+        are). Learned state is kept until then.
+
+        Returns
+        -------
+        self
+
+        Raises
+        ------
+        DataError
+            A name that is not a setting of this estimator (the message
+            lists the settings), or a nested name the inner estimator refuses.
+        """
+        valid = self._param_names()
+        nested: dict[str, dict] = {}
+        for key, value in params.items():
+            name, sep, inner = key.partition("__")
+            if name not in valid:
+                raise DataError(
+                    f"unknown setting '{shorten(key)}' for {type(self).__name__}{did_you_mean(name, valid)}; "
+                    f"settings are: {', '.join(valid)}"
+                )
+            if sep:
+                nested.setdefault(name, {})[inner] = value
+            else:
+                setattr(self, name, value)
+        for name, inner in nested.items():
+            target = getattr(self, name)
+            if not hasattr(target, "set_params") or isinstance(target, type):
+                raise DataError(f"setting '{name}' is not an estimator, so '{name}__...' cannot be set")
+            try:
+                target.set_params(**inner)
+            except IntervgnnError:
+                raise
+            except (ValueError, TypeError, AttributeError) as exc:
+                raise DataError(f"setting '{name}' refused {', '.join(sorted(inner))}: {shorten(exc)}") from None
+        return self
+
+    def _clear_fitted(self) -> None:
+        """Drop what a previous ``fit`` learned (attributes ending in ``_``), so a new fit starts clean."""
+        for key in [k for k in vars(self) if k.endswith("_") and not k.startswith("__")]:
+            delattr(self, key)
+
+
+class ChecksIdentification:
+    """For estimators that read a diagram with hidden common causes: identify each do-query's shape once.
+
+    The estimator sets ``graph_`` and an empty ``_identifications`` dict in ``fit``.
+    """
+
+    def identification(self, q: Query):
+        """Identification of the query's shape on the diagram (cached; None without hidden common causes or ``do=``)."""
+        if not self.graph_.has_hidden_confounding or not q.do:
+            return None
+        key = (q.targets, tuple(sorted(v for v, _ in q.do)), tuple(sorted(v for v, _ in q.given)))
+        if key not in self._identifications:
+            from ..identify import identify
+
+            self._identifications[key] = identify(self.graph_, list(q.targets), list(key[1]), list(key[2]))
+        return self._identifications[key]
+
+    def _identified(self, q: Query) -> bool | None:
+        ident = self.identification(q)
+        return None if ident is None else ident.identifiable

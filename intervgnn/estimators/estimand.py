@@ -78,6 +78,7 @@ class EstimandEstimator(Estimator):
     def fit(self, table: Table, graph: CausalGraph) -> EstimandEstimator:
         self._check_settings()
         table = check_fit_inputs(table, graph)
+        self._clear_fitted()
         self.graph_ = graph
         self.states_ = table.states
         self.oracle_ = counts_oracle(table, float(self.alpha))
@@ -104,4 +105,5 @@ class EstimandEstimator(Estimator):
         arr = ident.evaluate(self.oracle_, fixed, use="formula" if self.formula == "simplest" else "estimand")
         if arr.sum() <= 0:
             return np.full(arr.shape, 1.0 / arr.size)
-        return arr
+        # the verdict lists the targets in the diagram's order; the answer's axes follow the query's
+        return np.transpose(arr, [ident.targets.index(t) for t in q.targets])

@@ -48,6 +48,7 @@ class NaiveEstimator(Estimator):
     def fit(self, table: Table, graph: CausalGraph) -> NaiveEstimator:
         self._check_settings()
         table = check_fit_inputs(table, graph)
+        self._clear_fitted()
         self.graph_ = graph
         self.states_ = table.states
         self.codes_ = table.codes

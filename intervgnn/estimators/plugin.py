@@ -4,21 +4,61 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..bn.network import CausalNetwork
+from ..bn.network import MAX_CPT_ENTRIES, MAX_NETWORK_ENTRIES, CausalNetwork
+from ..errors import DataError, NotIdentified, ZeroEvidenceError
 from ..graph import CausalGraph
 from ..query import Query
 from ..table import Table
-from .base import Estimator, check_alpha, check_fit_inputs
+from .base import ChecksIdentification, Estimator, check_alpha, check_fit_inputs
+from .estimand import network_oracle
 
-__all__ = ["PluginEstimator", "count_cpts", "count_table", "loo_alpha", "AUTO_ALPHAS"]
+__all__ = [
+    "PluginEstimator", "count_cpts", "count_table", "loo_alpha", "observational_dag", "AUTO_ALPHAS", "MAX_CPT_CELLS",
+]
 
 
 #: smoothing values tried by ``alpha="auto"``
 AUTO_ALPHAS = (0.01, 0.03, 0.1, 0.3, 1.0, 3.0)
 
+#: the most (parent configuration, state) cells one counted CPT may have: the networks' own bound
+MAX_CPT_CELLS = MAX_CPT_ENTRIES
 
-def count_table(table: Table, graph: CausalGraph, v: str) -> np.ndarray:
-    """Counts ``[parent configurations, states]`` of ``v`` over the rows where ``v`` was not intervened."""
+
+def observational_dag(graph: CausalGraph) -> CausalGraph:
+    """A DAG on the diagram's variables whose factorisation holds for every distribution the diagram allows.
+
+    Without confounded pairs this is the diagram itself. With them, the
+    variables are taken in a topological order; a variable's parents become
+    its own parents, the other members of its confounded component among the
+    variables so far, and their parents (the factorisation by confounded
+    components of Tian & Pearl 2002). A variable without a confounded pair
+    keeps its parents. The DAG says nothing causal: it only factorises the
+    observational distribution.
+
+    Examples
+    --------
+    >>> g = CausalGraph([("X", "M"), ("M", "Y")], bidirected=[("X", "Y")])   # the front-door diagram
+    >>> observational_dag(g).parents("Y")
+    ('M', 'X')
+    """
+    if not graph.has_hidden_confounding:
+        return graph
+    seen: list[str] = []
+    edges = []
+    for v in graph.topological_order():
+        seen.append(v)
+        comp = next(c for c in graph.c_components(seen) if v in c)
+        family = (set(comp) | {p for u in comp for p in graph.parents(u)}) - {v}
+        own = graph.parents(v)
+        edges += [(p, v) for p in own] + [(u, v) for u in graph.nodes if u in family and u not in own]
+    return CausalGraph(edges, nodes=graph.nodes)
+
+
+def count_table(table: Table, graph: CausalGraph, v: str, rows: np.ndarray | None = None) -> np.ndarray:
+    """Counts ``[parent configurations, states]`` of ``v`` over the rows where ``v`` was not intervened.
+
+    ``rows`` (a boolean mask) restricts the count further.
+    """
     codes, states = table.codes, table.states
     col = {w: j for j, w in enumerate(table.variables)}
     pa = graph.parents(v)
@@ -31,6 +71,8 @@ def count_table(table: Table, graph: CausalGraph, v: str) -> np.ndarray:
         n_cfg *= c
     flat = idx * k + codes[:, col[v]]
     use = ~table.intervened[:, col[v]]
+    if rows is not None:
+        use &= rows
     return np.bincount(flat[use], minlength=n_cfg * k).reshape(n_cfg, k).astype(np.float64)
 
 
@@ -54,20 +96,23 @@ def loo_alpha(counts: np.ndarray, grid=AUTO_ALPHAS) -> float:
     return best
 
 
-def count_cpts(table: Table, graph: CausalGraph, alpha) -> dict[str, np.ndarray]:
+def count_cpts(table: Table, graph: CausalGraph, alpha, observational=()) -> dict[str, np.ndarray]:
     """Smoothed CPTs ``(count + alpha) / (row total + alpha * k)``, axes ``(*parents, v)``.
 
     A row counts towards a variable's CPT only where that variable was not
     set by intervention in the row (its value there did not come from its
-    mechanism); the row still counts for its children's CPTs. Parent
-    configurations never seen get the uniform row. ``alpha="auto"`` picks,
-    per variable, the value of :data:`AUTO_ALPHAS` with the best
+    mechanism); the row still counts for its children's CPTs. The variables
+    in ``observational`` count only the rows where no variable was set.
+    Parent configurations never seen get the uniform row. ``alpha="auto"``
+    picks, per variable, the value of :data:`AUTO_ALPHAS` with the best
     leave-one-out log-likelihood.
     """
     states = table.states
     cpts = {}
+    observational = set(observational)
+    plain = ~table.intervened.any(axis=1) if observational else None
     for v in graph.nodes:
-        counts = count_table(table, graph, v)
+        counts = count_table(table, graph, v, plain if v in observational else None)
         k = counts.shape[1]
         a = loo_alpha(counts) if alpha == "auto" else float(alpha)
         counts += a
@@ -80,12 +125,29 @@ def count_cpts(table: Table, graph: CausalGraph, alpha) -> dict[str, np.ndarray]
     return cpts
 
 
-class PluginEstimator(Estimator):
+class PluginEstimator(ChecksIdentification, Estimator):
     """Count CPTs from the rows (with additive smoothing) and answer exactly.
 
     On fully observed discrete data this is close to the best one can do
     with ``n`` rows: it is the statistical yardstick the neural estimator is
     judged against.
+
+    On a diagram with confounded pairs (bidirected edges: hidden common
+    causes) the diagram's own CPTs do not factorise the rows' distribution,
+    and cutting a node's parent edges does not answer do(). There the CPTs
+    are counted on :func:`observational_dag` instead (a member of a
+    confounded component counts only the rows where nothing was set), so
+    the fitted network estimates the observational distribution, and a
+    query with ``do=`` is first identified on the diagram
+    (:func:`~intervgnn.identify.identify`): one that is not identifiable
+    raises :class:`~intervgnn.errors.NotIdentified` (showing the hedge), one
+    that is identifiable is answered by evaluating its identification
+    formula (back-door, front-door, or the ID / IDC estimand) on the fitted
+    network, as :class:`~intervgnn.estimators.EstimandEstimator` does on the
+    raw frequencies. Experimental rows do not make a query identifiable
+    here; :class:`~intervgnn.estimators.NeuralEstimator` can use them. To
+    see what ignoring the hidden causes costs, fit on
+    ``graph.without_bidirected()``.
 
     Parameters
     ----------
@@ -115,12 +177,61 @@ class PluginEstimator(Estimator):
         check_alpha(self.alpha, allow_auto=True)
 
     def fit(self, table: Table, graph: CausalGraph) -> PluginEstimator:
+        """Count the CPTs of ``graph`` (of :func:`observational_dag` when it has confounded pairs) from ``table``.
+
+        Raises
+        ------
+        DataError
+            A bad ``alpha``, data that do not match the graph, or a CPT of
+            more than :data:`MAX_CPT_CELLS` cells (CPTs of more than
+            :data:`~intervgnn.bn.network.MAX_NETWORK_ENTRIES` in all).
+        """
         self._check_settings()
         table = check_fit_inputs(table, graph)
+        self._clear_fitted()
+        factors = observational_dag(graph)
+        states = table.states
+        total = 0
+        for v in factors.nodes:
+            cells = int(np.prod([len(states[p]) for p in factors.parents(v)], dtype=object)) * len(states[v])
+            if cells > MAX_CPT_CELLS:
+                hint = (" (its confounded component and their parents count as its parents here; "
+                        "EstimandEstimator counts only the joints a formula needs)") if factors is not graph else ""
+                raise DataError(
+                    f"variable '{v}' would need a CPT of {cells:,} cells, more than the limit of "
+                    f"{MAX_CPT_CELLS:,}{hint}"
+                )
+            total += cells
+            if total > MAX_NETWORK_ENTRIES:
+                raise DataError(
+                    f"the counted CPTs would have more than {MAX_NETWORK_ENTRIES:,} cells in all (the limit of a "
+                    "network); a diagram with fewer parents per variable, or EstimandEstimator, is needed"
+                )
+        confounded = [v for c in graph.c_components() if len(c) > 1 for v in c]
+        if confounded and table.intervened.any(axis=1).all():
+            raise DataError(
+                "every row comes from an experiment; on a diagram with confounded pairs the plug-in needs "
+                f"observational rows (rows where nothing was set) to count {', '.join(confounded[:5])}"
+                + (", ..." if len(confounded) > 5 else "")
+            )
+        cpts = count_cpts(table, factors, self.alpha, observational=confounded)
         self.graph_ = graph
-        self.states_ = table.states
-        self.network_ = CausalNetwork(graph, self.states_, count_cpts(table, graph, self.alpha), name="plug-in")
+        self.states_ = states
+        self.network_ = CausalNetwork(factors, states, cpts, name="plug-in")
+        self._identifications = {}
         return self
 
     def _answer(self, q: Query):
-        return self.network_.query(q.targets, do=q.do_dict, given=q.given_dict).probs
+        ident = self.identification(q)
+        if ident is None:
+            return self.network_.query(q.targets, do=q.do_dict, given=q.given_dict).probs
+        if not ident.identifiable:
+            raise NotIdentified(ident)
+        fixed = {v: self.states_[v].index(s) for v, s in list(q.do) + list(q.given)}
+        arr = ident.evaluate(network_oracle(self.network_), fixed)
+        if not arr.sum() > 0:
+            raise ZeroEvidenceError(
+                f"{q.describe()}: the identification formula conditions on an event the fitted rows give probability "
+                "zero (fit with alpha above 0)"
+            )
+        return np.transpose(arr, [ident.targets.index(t) for t in q.targets])
