@@ -5,14 +5,32 @@ from __future__ import annotations
 import glob
 import json
 import os
+import signal
+import threading
 from collections.abc import Callable, Iterable
 
-from .._io import atomic_open, make_folder
+from .._io import atomic_open, make_folder, remove_stale_temps
 from ..errors import ConfigError, IntervgnnError, RunError, WriteError
 from .config import ExperimentConfig
 from .runs import FORMAT, RunSpec, check_networks, execute_run, plan_runs, run_digest
 
-__all__ = ["RunStore", "run_grid"]
+__all__ = ["RunStore", "run_grid", "RunsInterrupted"]
+
+
+class RunsInterrupted(KeyboardInterrupt):
+    """The sweep was interrupted (Ctrl-C); the runs finished so far are saved.
+
+    A :class:`KeyboardInterrupt`, so code that stops on Ctrl-C still does;
+    ``finished`` and ``total`` count the grid's runs kept on disk (those a
+    resume skips) and its planned runs.
+    """
+
+    def __init__(self, finished: int, total: int):
+        self.finished, self.total = finished, total
+        super().__init__(
+            f"interrupted: {finished} of {total} runs finished and kept; run the same command with --resume "
+            f"to do the other {total - finished}"
+        )
 
 
 class RunStore:
@@ -27,9 +45,10 @@ class RunStore:
     def prepare(self, resume: bool) -> None:
         make_folder(self.folder)
         # temporary files of a run that was killed while being written
-        stale = glob.glob(os.path.join(self.folder, ".*.tmp"))
-        if not resume:
-            stale += glob.glob(os.path.join(self.folder, "*.json"))
+        remove_stale_temps(self.folder)
+        # and those of intervgnn 0.2 and earlier, named .<run>.json.<random>.tmp
+        stale = glob.glob(os.path.join(glob.escape(self.folder), ".*.json.*.tmp"))
+        stale += [] if resume else glob.glob(os.path.join(glob.escape(self.folder), "*.json"))
         for old in stale:
             try:
                 os.remove(old)
@@ -61,7 +80,26 @@ class RunStore:
 def _init_worker() -> None:
     import torch
 
+    # Ctrl-C reaches the whole process group; the main process alone answers
+    # it (it stops the workers), so a worker neither dies with a traceback
+    # nor turns the interrupt into one failed run and takes the next
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
     torch.set_num_threads(1)
+
+
+def _stop_pool(pool) -> None:
+    """Cancel the queued runs and end the workers now (their running runs are lost, to be done on resume)."""
+    # the pool has no public way to end its workers; without it the interpreter's
+    # exit would wait for the running runs
+    processes = list((getattr(pool, "_processes", None) or {}).values())
+    pool.shutdown(wait=False, cancel_futures=True)
+    for proc in processes:
+        proc.terminate()
+    for proc in processes:
+        proc.join(timeout=5)
+        if proc.is_alive():
+            proc.kill()
+            proc.join(timeout=5)
 
 
 def _local(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, on_done: Callable, on_fail: Callable) -> None:
@@ -78,8 +116,19 @@ def _local(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, on_done: Ca
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
     os.environ.setdefault("OMP_NUM_THREADS", "1")
-    with ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("spawn"), initializer=_init_worker) as pool:
-        futures = {pool.submit(execute_run, spec, cfg): spec for spec in todo}
+    # the workers start with Ctrl-C ignored (a spawned Python keeps an ignored
+    # SIGINT), so one pressed while they import cannot print a traceback
+    main = threading.current_thread() is threading.main_thread()
+    pool, futures, handled = None, {}, set()
+    try:
+        previous = signal.signal(signal.SIGINT, signal.SIG_IGN) if main else None
+        try:
+            pool = ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("spawn"), initializer=_init_worker)
+            for spec in todo:
+                futures[pool.submit(execute_run, spec, cfg)] = spec
+        finally:
+            if main and previous is not None:
+                signal.signal(signal.SIGINT, previous)
         for fut in as_completed(futures):
             try:
                 record = fut.result()
@@ -87,6 +136,20 @@ def _local(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, on_done: Ca
                 on_fail(futures[fut], exc)
             else:
                 on_done(futures[fut], record)
+            # only now: a record whose saving Ctrl-C broke off is saved again below
+            handled.add(fut)
+    except BaseException:
+        # Ctrl-C (or a record that cannot be saved): keep what has finished, drop the rest
+        if pool is not None:
+            _stop_pool(pool)
+        for fut, spec in futures.items():
+            if fut not in handled and fut.done() and not fut.cancelled() and fut.exception() is None:
+                try:
+                    on_done(spec, fut.result())
+                except Exception:
+                    break
+        raise
+    pool.shutdown(wait=True)
 
 
 def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str | None, on_done: Callable, on_fail: Callable) -> None:
@@ -107,17 +170,26 @@ def _ray(todo: list[RunSpec], cfg: ExperimentConfig, workers: int, address: str 
     try:
         remote = ray.remote(num_cpus=1)(_ray_task)
         pending = {remote.remote(spec, cfg): spec for spec in todo}
-        while pending:
-            done, _ = ray.wait(list(pending), num_returns=1)
-            for ref in done:
-                spec = pending.pop(ref)
+        try:
+            while pending:
+                done, _ = ray.wait(list(pending), num_returns=1)
+                for ref in done:
+                    spec = pending.pop(ref)
+                    try:
+                        record = ray.get(ref)
+                    except Exception as exc:
+                        # a task's own exception arrives wrapped; report the original
+                        on_fail(spec, getattr(exc, "cause", None) or exc)
+                    else:
+                        on_done(spec, record)
+        except BaseException:
+            # Ctrl-C: the queued and running tasks are not wanted any more (on a cluster too)
+            for ref in pending:
                 try:
-                    record = ray.get(ref)
-                except Exception as exc:
-                    # a task's own exception arrives wrapped; report the original
-                    on_fail(spec, getattr(exc, "cause", None) or exc)
-                else:
-                    on_done(spec, record)
+                    ray.cancel(ref, force=True)
+                except Exception:
+                    pass
+            raise
     finally:
         if started:
             ray.shutdown()
@@ -168,6 +240,10 @@ def run_grid(
     RunError
         Some runs failed; every other run was still done and saved, so a
         ``resume=True`` call does only the failed ones.
+    RunsInterrupted
+        Ctrl-C (a :class:`KeyboardInterrupt`): the queued runs are cancelled
+        and the workers stopped; the finished runs are saved, so a
+        ``resume=True`` call does only the rest.
     """
     workers = cfg.workers if workers is None else workers
     executor = executor or cfg.executor
@@ -181,7 +257,12 @@ def run_grid(
     specs = plan_runs(cfg)
     store = RunStore(cfg.output)
     store.prepare(resume)
-    todo = [s for s in specs if not (resume and store.finished(s, run_digest(s, cfg)))]
+    # temporary files that a killed sweep left in the folders it writes (the runs
+    # folder's went with prepare): the summaries and report, and the plots
+    for folder in (cfg.output, os.path.join(cfg.output, "plots")):
+        remove_stale_temps(folder)
+    digests = {s.key: run_digest(s, cfg) for s in specs}
+    todo = [s for s in specs if not (resume and store.finished(s, digests[s.key]))]
     if log:
         skipped = len(specs) - len(todo)
         log(f"{len(specs)} runs in the grid; {skipped} already finished, {len(todo)} to run ({executor}, {workers} worker(s))")
@@ -210,6 +291,12 @@ def run_grid(
             _local(todo, cfg, workers, on_done, on_fail)
         else:
             _ray(todo, cfg, workers, address, on_done, on_fail)
+    except KeyboardInterrupt:
+        # the records are read back as a resume reads them, so the count is exactly what a resume
+        # keeps: not a count of the saves that returned (Ctrl-C can land between a record's rename
+        # and the end of its save) nor of records whose digest is not this sweep's
+        kept = len(specs) - len(todo) + sum(store.finished(s, digests[s.key]) for s in todo)
+        raise RunsInterrupted(kept, len(specs)) from None
     finally:
         if bar is not None:
             bar.close()

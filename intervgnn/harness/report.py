@@ -6,6 +6,7 @@ import html
 import os
 
 from .._io import atomic_open
+from ..texts import CAUTION
 from .config import ExperimentConfig
 
 __all__ = ["write_report"]
@@ -52,7 +53,6 @@ def _markdown_to_html(md: str) -> str:
 
 def write_report(cfg: ExperimentConfig, summary: list[dict], images: list[str]) -> dict[str, str]:
     from . import summary as summary_mod
-    from ..cli import CAUTION
 
     nets = ", ".join(n.label + (f" (hidden: {', '.join(n.hidden)})" if n.hidden else "") for n in cfg.networks)
     md = [
