@@ -21,7 +21,8 @@ from ..graph import CausalGraph
 from ..models.answer import conditionals, monte_carlo, table_rows_needed, tabulate_cpts
 from ..models.shrinkage import Mixture, mixture_rows, mixture_weights
 from ..models.stats import MAX_FAMILY_CELLS, FamilyCells, GroupCells, config_index, count_cells
-from ..models.training import init_output_bias, train_vgae
+from ..models.replicas import stack_models, unstack_models
+from ..models.training import init_output_bias, train_replicas, train_vgae
 from ..models.vgae import FamilyBatch, InterventionalVGAE, family_edges
 from ..query import Query, check_seed
 from ..table import Table
@@ -315,44 +316,74 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             models, results, scores = {}, {}, []
             template = self._build(graph, states, 0) if plan else None
 
-            def train(key: str):
-                # a copy of one built model, re-initialised with this model's seed (building a PyG layer
-                # inspects its methods, which costs more than a copy)
+            def fresh(key: str) -> InterventionalVGAE:
+                # a copy of one built model, re-initialised with this model's seed (cheaper than a build)
                 model = copy.deepcopy(template)
                 with torch.random.fork_rng(devices=[]):
                     torch.manual_seed(_seed(self.seed, 2, plan.index(key)))
                     model.reset_parameters()
-                if key.startswith("all"):
-                    part, weight, group_weight = cells, cells.count, [g.count for g in cells.groups]
-                    steps, lr, rows = self.latent_steps, self.latent_lr, n
-                else:
-                    part = cells.subset(free)
-                    weight, group_weight, steps, lr = part.heldout(int(key[4:])), [], self.steps, self.lr
-                    rows = n - int(np.count_nonzero(folds == int(key[4:])))
-                batch = FamilyBatch.from_cells(model, part)
-                init_output_bias(model, part, weight)
+                return model
 
+            def tick_for(key: str, per_step: int):
                 def tick(step, elbo):
                     if bar is not None:
-                        bar.update(1)
+                        bar.update(per_step)
                         if step % 10 == 0:
                             bar.set_postfix(model=key, elbo=f"{elbo:.3f}")
 
+                return tick
+
+            def train_folds(keys: list[str]) -> None:
+                # the cross-fitted models side by side in one model of block-diagonal layers: one pass per
+                # step for all of them (see intervgnn.models.replicas); each ends as if trained alone
+                part = cells.subset(free)
+                fold_models, weights, rows, seeds = [], [], [], []
+                for key in keys:
+                    f = int(key[4:])
+                    model = fresh(key)
+                    weights.append(part.heldout(f))
+                    init_output_bias(model, part, weights[-1])
+                    fold_models.append(model)
+                    rows.append(n - int(np.count_nonzero(folds == f)))
+                    seeds.append(_seed(self.seed, 3, plan.index(key)))
+                if len(keys) > 1:
+                    big = stack_models(fold_models)
+                    batch = FamilyBatch.from_cells(big, part)
+                    out = train_replicas(
+                        big, batch, weights, steps=self.steps, lr=self.lr, weight_decay=self.weight_decay,
+                        seeds=seeds, rows=rows, on_step=tick_for("folds", len(keys)),
+                    )
+                    unstack_models(big, fold_models)
+                else:
+                    batch = FamilyBatch.from_cells(fold_models[0], part)
+                    out = [train_vgae(
+                        fold_models[0], batch, weights[0], steps=self.steps, lr=self.lr,
+                        weight_decay=self.weight_decay, seed=seeds[0], rows=rows[0], on_step=tick_for(keys[0], 1),
+                    )]
+                for key, model, result in zip(keys, fold_models, out):
+                    models[key], results[key] = model.to("cpu").eval(), result
+
+            def train_latent(key: str):
+                model = fresh(key)
+                weight, group_weight = cells.count, [g.count for g in cells.groups]
+                batch = FamilyBatch.from_cells(model, cells)
+                init_output_bias(model, cells, weight)
                 result = train_vgae(
-                    model, batch, weight, group_weight, steps=steps, lr=lr, weight_decay=self.weight_decay,
-                    seed=_seed(self.seed, 3, plan.index(key)), rows=rows, on_step=tick,
-                    keep_best_every=100 if key.startswith("all") else 0,
+                    model, batch, weight, group_weight, steps=self.latent_steps, lr=self.latent_lr,
+                    weight_decay=self.weight_decay, seed=_seed(self.seed, 3, plan.index(key)), rows=n,
+                    on_step=tick_for(key, 1), keep_best_every=100,
                 )
-                return key, model.to("cpu").eval(), result
+                return model.to("cpu").eval(), result
 
             try:
+                fold_keys = [key for key in plan if key.startswith("fold")]
+                if fold_keys:
+                    train_folds(fold_keys)
                 latent = []
                 for key in plan:
-                    _, model, result = train(key)
                     if key.startswith("all"):
+                        model, result = train_latent(key)
                         latent.append((max(score for _, score in result.checkpoints), model, result))
-                    else:
-                        models[key], results[key] = model, result
                 if latent:
                     # restarts of a mixture: keep the one whose rows are most likely (a degenerate mixture,
                     # whose latent states all predict alike, scores lower)

@@ -11,9 +11,10 @@ import numpy as np
 import torch
 
 from .stats import FamilyCells
+from .replicas import mask_replica_grads
 from .vgae import FamilyBatch, InterventionalVGAE, family_elbo
 
-__all__ = ["TrainResult", "train_vgae", "init_output_bias"]
+__all__ = ["TrainResult", "train_vgae", "train_replicas", "init_output_bias"]
 
 
 @dataclass
@@ -156,3 +157,56 @@ def train_vgae(
     result.steps = steps
     result.seconds = time.perf_counter() - t0
     return result
+
+
+def train_replicas(
+    model: InterventionalVGAE,
+    batch: FamilyBatch,
+    weights: Sequence[np.ndarray],
+    *,
+    steps: int = 100,
+    lr: float = 1e-2,
+    weight_decay: float = 0.0,
+    seeds: Sequence[int] = (),
+    rows: Sequence[float] = (),
+    on_step: Callable[[int, float], None] | None = None,
+) -> list[TrainResult]:
+    """:func:`train_vgae` for a model of stacked replicas (:func:`~intervgnn.models.replicas.stack_models`).
+
+    Replica ``r`` maximises the ELBO of ``weights[r]`` with its own
+    reparameterisation noise (``seeds[r]``); the loss is the sum of the
+    replicas' losses, each scaled as :func:`train_vgae` scales it, and the
+    gradients of the blocks off the diagonal are zeroed before each step, so
+    every replica follows the steps it would take trained alone (up to float
+    rounding: Adam is element-wise). One result per replica; ``on_step``
+    gets the replicas' mean ELBO per row.
+    """
+    t0 = time.perf_counter()
+    dev = batch.node.device
+    r = model.replicas
+    w = torch.as_tensor(np.stack([np.asarray(x, dtype=np.float64) for x in weights]), dtype=torch.float32, device=dev)
+    scale = torch.as_tensor([max(float(np.asarray(x).sum()), 1.0) for x in weights], dtype=torch.float32, device=dev)
+    per_row = [float(n) if n else float(scale[i]) for i, n in enumerate(rows or [None] * r)]
+    results = [TrainResult(rows=per_row[i], cells=int(np.count_nonzero(weights[i]))) for i in range(r)]
+    gens = [torch.Generator(device=dev).manual_seed(int(s)) for s in (seeds or range(r))]
+    opt = _adam(list(model.parameters()), lr, weight_decay)
+    model.train()
+    for step in range(1, steps + 1):
+        for group in opt.param_groups:
+            group["lr"] = lr * 0.5 * (1.0 + math.cos(math.pi * (step - 1) / steps))
+        elbo = family_elbo(model, batch, w, (), gens)
+        loss = -(elbo / scale).sum()
+        opt.zero_grad(set_to_none=True)
+        loss.backward()
+        mask_replica_grads(model)
+        opt.step()
+        values = elbo.detach().tolist()
+        for i in range(r):
+            results[i].history.append(values[i] / per_row[i])
+        if on_step is not None:
+            on_step(step, sum(res.history[-1] for res in results) / r)
+    model.eval()
+    seconds = time.perf_counter() - t0
+    for res in results:
+        res.steps, res.seconds = steps, seconds
+    return results

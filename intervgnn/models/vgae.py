@@ -240,7 +240,17 @@ class InterventionalVGAE(torch.nn.Module):
         self.decoder = InterventionalConv((dim, dim), hidden, hidden_channels=hidden, num_layers=num_layers)
         self.out_emb = torch.nn.Embedding(total + 1, hidden)
         self.out_bias = torch.nn.Embedding(total + 1, 1)
+        self.replicas = 1  # models side by side on every feature axis (see intervgnn.models.replicas)
         self.reset_parameters()
+
+    def set_replicas(self, replicas: int, dim: int, hidden: int, z_dim: int, encoder_hidden: int) -> None:
+        """Read this model as ``replicas`` models of the given sizes side by side (block-diagonal layers).
+
+        Used by :func:`~intervgnn.models.replicas.stack_models`; the family
+        ELBO then returns one value per replica. Sizes are per replica.
+        """
+        self.replicas = int(replicas)
+        self.rep_dim, self.rep_hidden, self.rep_z, self.rep_encoder_hidden = dim, hidden, z_dim, encoder_hidden
 
     def reset_parameters(self):
         torch.nn.init.normal_(self.state_emb.weight, std=0.5)
@@ -377,6 +387,13 @@ class InterventionalVGAE(torch.nn.Module):
         dst = torch.cat([dst.new_zeros(t, dst.size(1)), dst])
         h = self.decoder((src, dst), edges)[t:]
         index = self.state_index[node]
+        if self.replicas > 1:  # [D, R, K]: each replica's hidden slice against its own output embeddings
+            r = self.replicas
+            w = self.out_emb.weight.view(-1, r, self.rep_hidden)
+            every = torch.einsum("drh,trh->drt", h.view(h.size(0), r, self.rep_hidden), w)
+            every = every + self.out_bias.weight.t().unsqueeze(0)
+            logits = every.gather(2, index.unsqueeze(1).expand(-1, r, -1))
+            return logits.masked_fill(~self.valid[node].unsqueeze(1), float("-inf"))
         logits = (h @ self.out_emb.weight.t() + self.out_bias.weight.t()).gather(1, index)
         return logits.masked_fill(~self.valid[node], float("-inf"))
 
@@ -397,14 +414,25 @@ class InterventionalVGAE(torch.nn.Module):
         if prior_mean:
             z = torch.zeros_like(mu)
         elif self.training:
-            noise = torch.randn(mu.shape, generator=generator, device=mu.device, dtype=mu.dtype)
+            if self.replicas > 1:  # each replica's noise from its own generator, as if trained alone
+                gens = generator if isinstance(generator, (list, tuple)) else [generator] * self.replicas
+                noise = torch.cat([
+                    torch.randn((mu.size(0), self.rep_z), generator=g, device=mu.device, dtype=mu.dtype) for g in gens
+                ], dim=1)
+            else:
+                noise = torch.randn(mu.shape, generator=generator, device=mu.device, dtype=mu.dtype)
             z = mu + noise * logstd.exp()
         else:
             z = mu
         cell = batch.dec_cell
         z_items = torch.nn.functional.embedding(cell, z)  # a member cell is decoded once per latent state
         logits = self.decode_families(batch.node[cell], z_items, batch.dec_edges, batch.dec_u, values)
-        logp = torch.log_softmax(logits, dim=-1).gather(1, batch.state[cell].unsqueeze(-1)).squeeze(-1)
+        own = batch.state[cell].unsqueeze(-1)
+        if self.replicas > 1:  # logp [D, R], kl [C, R]
+            logp = torch.log_softmax(logits, dim=-1).gather(2, own.unsqueeze(1).expand(-1, self.replicas, 1)).squeeze(-1)
+            kl = _kl(mu.view(mu.size(0), self.replicas, -1), logstd.view(mu.size(0), self.replicas, -1))
+            return logp, kl, mu
+        logp = torch.log_softmax(logits, dim=-1).gather(1, own).squeeze(-1)
         return logp, _kl(mu, logstd), mu
 
 
@@ -425,7 +453,10 @@ def family_elbo(
 
     ``weight [C]`` holds the cells' row counts, ``group_weight`` per
     component the counts of its configurations; ``generator`` draws the
-    reparameterisation noise in training mode. With ``prior_mean`` z is set
+    reparameterisation noise in training mode (for a model of stacked
+    replicas, see :mod:`~intervgnn.models.replicas`: ``weight`` is ``[R, C]``,
+    ``generator`` one per replica, and the result one ELBO per replica,
+    ``[R]``). With ``prior_mean`` z is set
     to zero and the KL left out: the log-likelihood of the rows under the
     decoder's predictions from the parents (and latents) alone, which no
     encoding of a row's own value into z can inflate. On the same rows this equals
@@ -433,6 +464,11 @@ def family_elbo(
     float rounding; in training mode in expectation over the noise).
     """
     logp, kl, _ = model.family_terms(batch, generator, prior_mean)
+    if model.replicas > 1:  # weight [R, C]: one ELBO per replica, ``[R]``
+        if batch.group_cell:
+            raise ValueError("replicated models have no confounded groups")
+        total = logp.new_zeros(model.replicas) if prior_mean else (weight * (-kl.t())).sum(1)
+        return total + (weight[:, batch.free_cells] * logp[batch.free_item[batch.free_cells]].t()).sum(1)
     total = logp.new_zeros(()) if prior_mean else (weight * (-kl)).sum()
     total = total + (weight[batch.free_cells] * logp[batch.free_item[batch.free_cells]]).sum()
     if batch.group_cell and batch.node.numel():  # with no cell at all every member was set: no group term

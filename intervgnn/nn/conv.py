@@ -178,6 +178,13 @@ class InterventionalConv(MessagePassing):
         self.update_mlp = MLP(upd, act=act, norm=None, plain_last=True, bias=[True] * (num_layers - 1) + [bias])
         self.reset_parameters()
 
+    def _set_jittable_templates(self, raise_on_error: bool = False) -> None:
+        # PyG renders a specialised propagate() from a template when a layer is built; for this
+        # layer's signature (the extra ``cut`` mask) the rendered module comes out without one, the
+        # failure is swallowed and the plain propagate() is used, and the attempt was repeated on
+        # every construction (about 5 ms each). Use the plain propagate() from the start.
+        return None
+
     def reset_parameters(self):
         super().reset_parameters()
         self.message_mlp.reset_parameters()
