@@ -32,6 +32,7 @@ test: $(VENV)/.test
 
 bench: $(VENV)/.test
 	$(PY) experiments/bench/exact_vs_reference.py
+	$(PY) experiments/bench/fuzz_readers.py --inputs 10000
 	$(PY) experiments/bench/layer_overhead.py
 	$(PY) experiments/bench/neural_speed.py
 	$(PY) experiments/bench/neural_parts.py
