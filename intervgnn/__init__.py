@@ -35,9 +35,9 @@ from .errors import (
 from .graph import CausalGraph
 from .identify import identify  # the function (it shadows the subpackage's name on purpose)
 from .table import Table
-from .userdata import GraphSpec, load_graph, read_csv
+from .userdata import GraphSpec, from_dataframe, load_graph, read_csv
 
-__version__ = "0.2.0"
+__version__ = "0.3.0"
 
 __all__ = [
     "__version__",
@@ -46,6 +46,7 @@ __all__ = [
     "Distribution",
     "Table",
     "GraphSpec",
+    "from_dataframe",
     "load_graph",
     "read_csv",
     "PluginEstimator",
