@@ -346,22 +346,27 @@ class NeuralEstimator(ChecksIdentification, Estimator):
                     fold_models.append(model)
                     rows.append(n - int(np.count_nonzero(folds == f)))
                     seeds.append(_seed(self.seed, 3, plan.index(key)))
-                if len(keys) > 1:
-                    big = stack_models(fold_models)
-                    batch = FamilyBatch.from_cells(big, part)
-                    out = train_replicas(
-                        big, batch, weights, steps=self.steps, lr=self.lr, weight_decay=self.weight_decay,
-                        seeds=seeds, rows=rows, on_step=tick_for("folds", len(keys)),
-                    )
-                    unstack_models(big, fold_models)
-                else:
-                    batch = FamilyBatch.from_cells(fold_models[0], part)
-                    out = [train_vgae(
-                        fold_models[0], batch, weights[0], steps=self.steps, lr=self.lr,
-                        weight_decay=self.weight_decay, seed=seeds[0], rows=rows[0], on_step=tick_for(keys[0], 1),
-                    )]
-                for key, model, result in zip(keys, fold_models, out):
-                    models[key], results[key] = model.to("cpu").eval(), result
+                # two at a time: a stacked layer holds R^2 blocks, so its arithmetic grows with R^2
+                for start in range(0, len(keys), 2):
+                    group = slice(start, start + 2)
+                    members = fold_models[group]
+                    if len(members) > 1:
+                        big = stack_models(members)
+                        batch = FamilyBatch.from_cells(big, part)
+                        out = train_replicas(
+                            big, batch, weights[group], steps=self.steps, lr=self.lr, weight_decay=self.weight_decay,
+                            seeds=seeds[group], rows=rows[group], on_step=tick_for("folds", len(members)),
+                        )
+                        unstack_models(big, members)
+                    else:
+                        batch = FamilyBatch.from_cells(members[0], part)
+                        out = [train_vgae(
+                            members[0], batch, weights[start], steps=self.steps, lr=self.lr,
+                            weight_decay=self.weight_decay, seed=seeds[start], rows=rows[start],
+                            on_step=tick_for(keys[start], 1),
+                        )]
+                    for key, model, result in zip(keys[group], members, out):
+                        models[key], results[key] = model.to("cpu").eval(), result
 
             def train_latent(key: str):
                 model = fresh(key)

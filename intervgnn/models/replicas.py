@@ -83,8 +83,10 @@ def stack_models(models: Sequence[InterventionalVGAE]) -> InterventionalVGAE:
             first.cards, first.edge_index.cpu(), mechanisms=first.mechanism.tolist(), dim=r * first.dim,
             hidden=r * first.hidden, z_dim=r * first.z_dim, num_layers=first.num_layers,
             encoder_hidden=r * first.encoder_hidden, u_states=first.u_states,
-        ).to(first.state_emb.weight.device)
-        big.out_bias = torch.nn.Embedding(first.out_bias.num_embeddings, r).to(first.out_bias.weight.device)  # one per replica
+        ).to(device=first.state_emb.weight.device, dtype=first.state_emb.weight.dtype)
+        big.out_bias = torch.nn.Embedding(first.out_bias.num_embeddings, r).to(  # one per replica
+            device=first.out_bias.weight.device, dtype=first.out_bias.weight.dtype
+        )
     big.set_replicas(r, first.dim, first.hidden, first.z_dim, first.encoder_hidden)
     layouts = _layouts(first)
     params = dict(big.named_parameters())
@@ -119,7 +121,7 @@ def mask_replica_grads(model: InterventionalVGAE) -> None:
     """Zero the gradients of the off-diagonal blocks (call after ``backward``, before the optimiser step)."""
     for p, mask in getattr(model, "_replica_masks", ()):
         if p.grad is not None:
-            p.grad.mul_(mask)
+            p.grad.mul_(mask.to(device=p.grad.device, dtype=p.grad.dtype))  # no copy where they already agree
 
 
 @torch.no_grad()

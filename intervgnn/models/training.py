@@ -207,6 +207,6 @@ def train_replicas(
             on_step(step, sum(res.history[-1] for res in results) / r)
     model.eval()
     seconds = time.perf_counter() - t0
-    for res in results:
-        res.steps, res.seconds = steps, seconds
+    for res in results:  # each replica's share of the joint time, so that the results' seconds add up to it
+        res.steps, res.seconds = steps, seconds / r
     return results
