@@ -316,7 +316,9 @@ class Table:
         is_number = isinstance(fraction, (int, float, np.integer, np.floating)) and not isinstance(fraction, bool)
         if not is_number or not 0.0 < fraction < 1.0:
             raise DataError(f"fraction must lie strictly between 0 and 1, got {fraction}")
-        order = np.random.default_rng(seed).permutation(self.n_rows)
+        from .query import check_seed
+
+        order = np.random.default_rng(check_seed(seed, allow_none=True)).permutation(self.n_rows)
         cut = int(round(fraction * self.n_rows))
         return self.take(order[:cut]), self.take(order[cut:])
 

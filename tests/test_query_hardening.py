@@ -279,3 +279,10 @@ def test_query_set_seed_is_checked():
 
     with pytest.raises(DataError, match="^seed must be a non-negative whole number, got -1$"):
         make_query_set(our_network("cancer"), 3, seed=-1)
+
+
+@pytest.mark.parametrize("seed", [-1, "abc", 1.5, True])
+def test_table_split_checks_its_seed(seed):
+    rows = our_network("cancer").sample(20, seed=0)
+    with pytest.raises(DataError, match=r"^seed must be a non-negative whole number, got "):
+        rows.split(0.5, seed=seed)
