@@ -27,11 +27,13 @@ way it reports a syntax error; ``problem`` texts are cut to 200 characters.
 
 from __future__ import annotations
 
+import os
+
 import yaml
 
 from .errors import short_repr, shorten
 
-__all__ = ["load_yaml", "yaml_problem", "YAMLRefused", "MAX_ALIAS_EXPANSION", "MAX_DEPTH"]
+__all__ = ["load_yaml", "read_yaml_file", "yaml_problem", "YAMLRefused", "MAX_ALIAS_EXPANSION", "MAX_DEPTH"]
 
 #: the most values (scalars, lists and mappings) that all aliases of a document may stand for together
 MAX_ALIAS_EXPANSION = 100_000
@@ -186,3 +188,21 @@ def yaml_problem(source: str, exc: yaml.YAMLError) -> str:
     if isinstance(exc, YAMLRefused):
         return f"{source}{where}: {exc.problem}"
     return f"{source}{where}: not valid YAML ({getattr(exc, 'problem', None) or exc})"
+
+
+def read_yaml_file(path, error: type[Exception], names: bool = False):
+    """The document of a YAML file, read with :func:`load_yaml`; any problem raised as ``error`` naming the file.
+
+    A missing or unreadable file, text that is not UTF-8, and everything
+    :func:`load_yaml` refuses (with its line) become ``error(message)``.
+    """
+    source = os.fspath(path)
+    try:
+        with open(source, encoding="utf-8") as fh:
+            return load_yaml(fh, names=names)
+    except FileNotFoundError:
+        raise error(f"{source}: no such file") from None
+    except yaml.YAMLError as exc:
+        raise error(yaml_problem(source, exc)) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise error(f"{source}: cannot read the file ({exc})") from None

@@ -32,9 +32,8 @@ import os
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
-import yaml
 
-from ._yaml import load_yaml, yaml_problem
+from ._yaml import read_yaml_file
 from .errors import DataError, GraphError, did_you_mean, short_repr, shorten
 from .graph import CausalGraph
 from .table import REGIME_COLUMN, Table
@@ -158,16 +157,7 @@ def load_graph(path: str | os.PathLike) -> GraphSpec:
         or any problem :func:`parse_graph` reports.
     """
     source = os.fspath(path)
-    try:
-        with open(source, encoding="utf-8") as fh:
-            doc = load_yaml(fh, names=True)
-    except FileNotFoundError:
-        raise GraphError(f"{source}: no such file") from None
-    except yaml.YAMLError as exc:
-        raise GraphError(yaml_problem(source, exc)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise GraphError(f"{source}: cannot read the file ({exc})") from None
-    return parse_graph(doc, source)
+    return parse_graph(read_yaml_file(source, GraphError, names=True), source)
 
 
 def _graph_spec(graph) -> GraphSpec:

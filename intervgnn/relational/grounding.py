@@ -1,0 +1,154 @@
+"""Grounding: a template on a skeleton becomes an ordinary :class:`~intervgnn.CausalNetwork`.
+
+Every attribute of every instance is one variable, named by
+:func:`~intervgnn.relational.node_name` (``hive_4__Treated``). Its parents
+are, in this order, the instance's own parent attributes (the mechanism's
+order), then for each aggregate the aggregated attribute of every related
+instance (in the skeleton's order of instances), each variable once. Its CPT
+row for a configuration of the parents is the mechanism's row for the own
+parents' states and the bins that the aggregates compute from the related
+instances' states; the whole table is built with array operations.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..bn.network import MAX_CPT_ENTRIES, MAX_NETWORK_ENTRIES, CausalNetwork
+from ..errors import GraphError, NetworkError
+from ..graph import CausalGraph
+from .model import Template, find_cycle, node_name
+from .skeleton import Skeleton
+
+__all__ = ["ground", "MAX_GROUND_VARIABLES"]
+
+#: the most variables a ground network may have
+MAX_GROUND_VARIABLES = 100_000
+
+
+def _related(skeleton: Skeleton) -> dict[tuple[str, str], dict[str, list[str]]]:
+    """``(relationship, direction) -> instance id -> related ids``, in the skeleton's instance order."""
+    schema = skeleton.schema
+    out = {}
+    for r, rel in schema.relationships.items():
+        along = {i: [] for i in skeleton.instances[rel.source]}
+        against = {i: [] for i in skeleton.instances[rel.target]}
+        for s, t in skeleton.links[r]:
+            along[s].append(t)
+            against[t].append(s)
+        src_pos = {i: k for k, i in enumerate(skeleton.instances[rel.source])}
+        dst_pos = {i: k for k, i in enumerate(skeleton.instances[rel.target])}
+        for ids in along.values():
+            ids.sort(key=dst_pos.__getitem__)
+        for ids in against.values():
+            ids.sort(key=src_pos.__getitem__)
+        out[(r, "along")] = along
+        out[(r, "against")] = against
+    return out
+
+
+def ground(template: Template, skeleton: Skeleton, name: str = "ground") -> CausalNetwork:
+    """The ground causal network of ``template`` on ``skeleton``.
+
+    Parameters
+    ----------
+    template : Template
+    skeleton : Skeleton
+        Over the same schema as the template.
+    name : str, default ``"ground"``
+        The network's name.
+
+    Returns
+    -------
+    CausalNetwork
+        One variable per (instance, attribute); sample it with
+        ``.sample(n, seed=...)`` and ask do-queries with ``.query``.
+
+    Raises
+    ------
+    GraphError
+        A skeleton over another schema, or links that make the ground graph
+        cyclic (the message names a cycle of instance attributes).
+    NetworkError
+        More than :data:`MAX_GROUND_VARIABLES` variables, or a ground CPT of
+        more than :data:`~intervgnn.bn.network.MAX_CPT_ENTRIES` entries (an
+        instance with too many related instances), or CPTs of more than
+        :data:`~intervgnn.bn.network.MAX_NETWORK_ENTRIES` in all; refused
+        before any table is built.
+    """
+    if not isinstance(template, Template):
+        raise GraphError(f"template must be a Template, got {type(template).__name__}")
+    if not isinstance(skeleton, Skeleton):
+        raise GraphError(f"skeleton must be a Skeleton, got {type(skeleton).__name__}")
+    schema = template.schema
+    if skeleton.schema != schema:
+        raise GraphError("the skeleton is over another schema than the template; build both from one schema")
+    n_vars = sum(len(skeleton.instances[t]) * len(attrs) for t, attrs in schema.entities.items())
+    if n_vars > MAX_GROUND_VARIABLES:
+        raise NetworkError(
+            f"the ground network would have {n_vars:,} variables, more than the limit of {MAX_GROUND_VARIABLES:,}"
+        )
+    related = _related(skeleton)
+    states: dict[str, tuple[str, ...]] = {}
+    parents: dict[str, list[str]] = {}
+    plan: dict[str, tuple] = {}  # variable -> (mechanism, own parent positions, per-aggregate positions)
+    total = 0
+    for t, attrs in schema.entities.items():
+        for i in skeleton.instances[t]:
+            for a in attrs:
+                v = node_name(t, i, a)
+                states[v] = attrs[a]
+                m = template.mechanisms[(t, a)]
+                pos: dict[str, int] = {}
+                for p in m.parents:
+                    pos.setdefault(node_name(t, i, p), len(pos))
+                agg_pos = []
+                for g in m.aggregates:
+                    other = g.related_entity(schema)
+                    ids = related[(g.relationship, g.direction)][i]
+                    agg_pos.append([pos.setdefault(node_name(other, j, g.attribute), len(pos)) for j in ids])
+                parents[v] = list(pos)
+                plan[v] = (m, [pos[node_name(t, i, p)] for p in m.parents], agg_pos)
+    for v, ps in parents.items():
+        size = math.prod(len(states[p]) for p in ps) * len(states[v])  # Python integers: no overflow
+        if size > MAX_CPT_ENTRIES:
+            raise NetworkError(
+                f"the ground CPT of '{v}' would have {size:,} entries ({len(ps)} parents), more than the limit of "
+                f"{MAX_CPT_ENTRIES:,}; it has too many related instances for an exact table"
+            )
+        total += size
+    if total > MAX_NETWORK_ENTRIES:
+        raise NetworkError(
+            f"the ground CPTs would have {total:,} entries in all, more than the limit of {MAX_NETWORK_ENTRIES:,}; "
+            "ground a smaller skeleton"
+        )
+    cycle = find_cycle(parents)
+    if cycle:
+        raise GraphError(
+            "the skeleton's links make the ground network cyclic: " + " -> ".join(cycle)
+            + "; remove a link on this cycle or change the template's aggregates"
+        )
+    cpts = {v: _ground_cpt(v, parents[v], states, *plan[v]) for v in parents}
+    graph = CausalGraph([(p, v) for v in parents for p in parents[v]], nodes=list(parents))
+    return CausalNetwork(graph, states, cpts, name=name)
+
+
+def _ground_cpt(v, ps, states, mech, own_pos, agg_pos) -> np.ndarray:
+    cards = tuple(len(states[p]) for p in ps)
+    nd = len(cards)
+
+    def codes(k: int) -> np.ndarray:  # the codes of parent k along its own axis
+        return np.arange(cards[k]).reshape([cards[k] if j == k else 1 for j in range(nd)])
+
+    index = [codes(k) for k in own_pos]
+    for g, positions in zip(mech.aggregates, agg_pos):
+        lookup = g.bin_of_counts(len(positions))
+        count = np.zeros((1,) * nd, dtype=np.int64)
+        for k in positions:
+            state = states[ps[k]].index(g.state)
+            count = count + (codes(k) == state)
+        index.append(lookup[count])
+    table = mech.cpt[tuple(index)]
+    return np.array(np.broadcast_to(table, cards + (len(states[v]),)), dtype=np.float64)
