@@ -29,6 +29,20 @@ Examples
 
 from __future__ import annotations
 
+from .data import RelationalData
+from .benchmarks import (
+    RELATIONAL_BENCHMARKS,
+    RelationalSpec,
+    bipartite_skeleton,
+    bipartite_template,
+    chain_skeleton,
+    chain_template,
+    is_relational_spec,
+    parse_relational_spec,
+    peer_skeleton,
+    peer_template,
+    relational_benchmark,
+)
 from .files import format_template, parse_template, read_template, write_template
 from .grounding import MAX_GROUND_VARIABLES, ground
 from .model import Aggregate, Mechanism, Relationship, Schema, Template, node_name, split_node_name
@@ -45,6 +59,7 @@ __all__ = [
     "node_name",
     "split_node_name",
     "read_skeleton",
+    "RelationalData",
     "read_template",
     "parse_template",
     "format_template",
@@ -52,4 +67,15 @@ __all__ = [
     "MAX_GROUND_VARIABLES",
     "MAX_INSTANCES",
     "MAX_LINKS",
+    "bipartite_template",
+    "peer_template",
+    "chain_template",
+    "bipartite_skeleton",
+    "peer_skeleton",
+    "chain_skeleton",
+    "relational_benchmark",
+    "RelationalSpec",
+    "parse_relational_spec",
+    "is_relational_spec",
+    "RELATIONAL_BENCHMARKS",
 ]
