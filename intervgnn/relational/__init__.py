@@ -43,6 +43,17 @@ from .benchmarks import (
     peer_template,
     relational_benchmark,
 )
+from .estimate import (
+    MAX_POPULATION_INSTANCES,
+    Policy,
+    PopulationQuery,
+    RelationalPluginEstimator,
+    SpilloverEffects,
+    SpilloverQuery,
+    UnitQuery,
+    UnlinkedPluginEstimator,
+    exact_answer,
+)
 from .files import format_template, parse_template, read_template, write_template
 from .grounding import MAX_GROUND_VARIABLES, ground
 from .model import Aggregate, Mechanism, Relationship, Schema, Template, node_name, split_node_name
@@ -78,4 +89,13 @@ __all__ = [
     "parse_relational_spec",
     "is_relational_spec",
     "RELATIONAL_BENCHMARKS",
+    "UnitQuery",
+    "Policy",
+    "PopulationQuery",
+    "SpilloverQuery",
+    "SpilloverEffects",
+    "exact_answer",
+    "RelationalPluginEstimator",
+    "UnlinkedPluginEstimator",
+    "MAX_POPULATION_INSTANCES",
 ]
