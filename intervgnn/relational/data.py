@@ -173,13 +173,14 @@ class RelationalData:
     def draw(self, k: int) -> RelationalData:
         """The data of draw ``k`` (from 0) alone."""
         n = self.num_draws
-        if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or not -n <= k < n:
+        if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or not 0 <= k < n:
             raise DataError(f"draw must be a whole number from 0 to {n - 1}, got {short_repr(k)}")
         return RelationalData(self.skeleton, {t: v[k] for t, v in self._values.items()})
 
     def labels(self, entity: str, attribute: str, draw: int = 0) -> list[str]:
         """State names of ``entity.attribute`` of every instance in draw ``draw``."""
-        if entity not in self.schema.entities or attribute not in self.schema.entities[entity]:
+        if (not isinstance(entity, str) or not isinstance(attribute, str) or entity not in self.schema.entities
+                or attribute not in self.schema.entities[entity]):
             raise DataError(f"unknown attribute {short_repr(entity)}.{short_repr(attribute)} of the schema")
         j = list(self.schema.entities[entity]).index(attribute)
         states = self.schema.entities[entity][attribute]

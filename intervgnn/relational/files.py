@@ -71,15 +71,16 @@ def _keys(d: dict, allowed, where: str, source: str) -> None:
             )
 
 
-def _number(x, where: str, source: str) -> float:
+def _number(x, where: str, source: str, error: type[Exception] = NetworkError) -> float:
+    """``x`` as a finite float; else ``error`` (NetworkError for CPT entries, GraphError for template numbers)."""
     if isinstance(x, bool) or x is None or isinstance(x, (list, dict)):
-        raise NetworkError(f"{source}: {where}: {short_repr(x)} is not a number")
+        raise error(f"{source}: {where}: {short_repr(x)} is not a number")
     try:
         v = float(x)
     except (TypeError, ValueError, OverflowError):
-        raise NetworkError(f"{source}: {where}: {short_repr(x)} is not a number") from None
+        raise error(f"{source}: {where}: {short_repr(x)} is not a number") from None
     if not math.isfinite(v):
-        raise NetworkError(f"{source}: {where}: {short_repr(x)} is not a finite number")
+        raise error(f"{source}: {where}: {short_repr(x)} is not a finite number")
     return v
 
 
@@ -139,7 +140,7 @@ def parse_template(doc, source: str = "<template>") -> Template:
                         raise GraphError(f"{source}: {gw} has no '{missing[0]}'")
                     edges = g["edges"]
                     if isinstance(edges, list):
-                        edges = [_number(x, f"{gw}, edges", source) for x in edges]
+                        edges = [_number(x, f"{gw}, edges", source, GraphError) for x in edges]
                     built.append(
                         Aggregate(g["relationship"], g["attribute"], g["state"], g["kind"], edges, g.get("direction") or ALONG)
                     )

@@ -188,6 +188,10 @@ class Schema:
                         "rename one"
                     )
         rels: dict[str, Relationship] = {}
+        if relationships is not None and not isinstance(relationships, Mapping):
+            raise GraphError(
+                f"relationships must map each name to its (source, target) entity types, got {type(relationships).__name__}"
+            )
         for r, ends in (relationships or {}).items():
             _check_name(r, "relationship")
             if r in ents:
@@ -237,7 +241,11 @@ class Schema:
         return attribute
 
     def __eq__(self, other) -> bool:
-        return isinstance(other, Schema) and (self.entities, self.relationships) == (other.entities, other.relationships)
+        # the order of attributes matters: data and ground tables lay their columns out in it
+        def layout(schema):
+            return [(t, list(attrs.items())) for t, attrs in sorted(schema.entities.items())]
+
+        return isinstance(other, Schema) and layout(self) == layout(other) and self.relationships == other.relationships
 
     def __repr__(self) -> str:
         return f"Schema(entities={sorted(self.entities)}, relationships={sorted(self.relationships)})"
@@ -301,9 +309,10 @@ class Aggregate:
     kind: str
     edges: tuple
     direction: str = ALONG
-    _lookups: dict = field(default_factory=dict, compare=False, repr=False)
+    _lookups: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def __post_init__(self):
+        object.__setattr__(self, "_lookups", {})  # a copy (dataclasses.replace) starts with an empty cache
         _check_name(self.relationship, "the relationship of an aggregate")
         _check_name(self.attribute, "the attribute of an aggregate")
         _check_word(self.state, "the state of an aggregate")
@@ -532,6 +541,8 @@ class Template:
         if not isinstance(schema, Schema):
             raise GraphError(f"schema must be a Schema, got {type(schema).__name__}")
         self.schema = schema
+        if isinstance(mechanisms, (str, bytes, Mapping)) or not isinstance(mechanisms, Iterable):
+            raise GraphError(f"mechanisms must be a list of Mechanism objects, got {type(mechanisms).__name__}")
         mechs: dict[tuple[str, str], Mechanism] = {}
         for m in mechanisms:
             if not isinstance(m, Mechanism):
