@@ -51,6 +51,11 @@ def init_output_bias(model: InterventionalVGAE, cells: FamilyCells, weight: np.n
         bias[model.state_index[v, :k], 0] = torch.as_tensor(lp - lp.mean(), dtype=bias.dtype, device=bias.device)
 
 
+def _cosine(lr: float, step: int, steps: int) -> float:
+    """The learning rate of step ``step`` (from 1) of ``steps``: a cosine from ``lr`` towards zero."""
+    return lr * 0.5 * (1.0 + math.cos(math.pi * (step - 1) / steps))
+
+
 def _adam(params, lr: float, weight_decay: float) -> torch.optim.Optimizer:
     try:
         return torch.optim.Adam(params, lr=lr, weight_decay=weight_decay, fused=True)
@@ -137,7 +142,7 @@ def train_vgae(
     model.train()
     for step in range(1, steps + 1):
         for group in opt.param_groups:
-            group["lr"] = lr * 0.5 * (1.0 + math.cos(math.pi * (step - 1) / steps))
+            group["lr"] = _cosine(lr, step, steps)
         elbo = family_elbo(model, batch, w, gw, gen)
         loss = -elbo / scale
         opt.zero_grad(set_to_none=True)
@@ -193,7 +198,7 @@ def train_replicas(
     model.train()
     for step in range(1, steps + 1):
         for group in opt.param_groups:
-            group["lr"] = lr * 0.5 * (1.0 + math.cos(math.pi * (step - 1) / steps))
+            group["lr"] = _cosine(lr, step, steps)
         elbo = family_elbo(model, batch, w, (), gens)
         loss = -(elbo / scale).sum()
         opt.zero_grad(set_to_none=True)

@@ -41,7 +41,7 @@ from .._io import atomic_open, make_folder
 from ..errors import DataError, WriteError, did_you_mean, short_repr, shorten
 from ..table import Table
 from .model import _WORD, Schema, Template, node_name
-from .skeleton import MAX_INSTANCES, MAX_LINKS, Skeleton, _read_csv, read_skeleton
+from .skeleton import MAX_INSTANCES, MAX_LINKS, Skeleton, _read_csv, read_skeleton, refuse_unknown_keys
 
 __all__ = ["RelationalData"]
 
@@ -109,12 +109,7 @@ class RelationalData:
         schema = skeleton.schema
         if not isinstance(values, Mapping):
             raise DataError(f"values must be a mapping of entity type -> codes, got {type(values).__name__}")
-        for t in values:
-            if t not in schema.entities:
-                raise DataError(
-                    f"values given for unknown entity type {short_repr(t)}; types are: "
-                    f"{', '.join(sorted(schema.entities))}{did_you_mean(t, schema.entities)}"
-                )
+        refuse_unknown_keys(values, schema.entities, "values", "entity type", "types")
         out: dict[str, np.ndarray] = {}
         draws = None
         for t, attrs in schema.entities.items():

@@ -28,6 +28,16 @@ MAX_INSTANCES = 100_000
 MAX_LINKS = 1_000_000
 
 
+def refuse_unknown_keys(given: Mapping, known: Mapping, what: str, kind: str, listed: str) -> None:
+    """DataError for the first key of ``given`` not in ``known``, e.g. "links given for unknown relationship 'x'; ..."."""
+    for key in given:
+        if key not in known:
+            raise DataError(
+                f"{what} given for unknown {kind} {short_repr(key)}; {listed} are: "
+                f"{', '.join(sorted(known)) or '(none)'}{did_you_mean(key, known)}"
+            )
+
+
 def _bad_id(value, where: str) -> DataError:
     return DataError(
         f"{where}: instance id {short_repr(value)} is not valid: use letters, digits, '_', '.' and '-' "
@@ -63,12 +73,7 @@ class Skeleton:
         self.schema = schema
         if not isinstance(instances, Mapping):
             raise DataError(f"instances must be a mapping of entity type -> ids, got {type(instances).__name__}")
-        for t in instances:
-            if t not in schema.entities:
-                raise DataError(
-                    f"instances given for unknown entity type {short_repr(t)}; types are: "
-                    f"{', '.join(sorted(schema.entities))}{did_you_mean(t, schema.entities)}"
-                )
+        refuse_unknown_keys(instances, schema.entities, "instances", "entity type", "types")
         inst: dict[str, tuple[str, ...]] = {}
         total = 0
         for t in schema.entities:
@@ -90,12 +95,7 @@ class Skeleton:
         links = links or {}
         if not isinstance(links, Mapping):
             raise DataError(f"links must be a mapping of relationship -> (source, target) pairs, got {type(links).__name__}")
-        for r in links:
-            if r not in schema.relationships:
-                raise DataError(
-                    f"links given for unknown relationship {short_repr(r)}; relationships are: "
-                    f"{', '.join(sorted(schema.relationships)) or '(none)'}{did_you_mean(r, schema.relationships)}"
-                )
+        refuse_unknown_keys(links, schema.relationships, "links", "relationship", "relationships")
         known = {t: set(ids) for t, ids in inst.items()}
         out: dict[str, tuple[tuple[str, str], ...]] = {}
         count = 0
