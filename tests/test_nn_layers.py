@@ -386,8 +386,70 @@ def test_pair_input_separates_what_a_node_sends_from_what_it_knows():
     same = InterventionalConv(F_IN, F_OUT)
     x = torch.randn(g.num_nodes, F_IN)
     assert torch.equal(same((x, x), ei), same(x, ei))
-    with pytest.raises(LayerInputError, match="must describe the same nodes"):
-        conv((x_src, x_dst[:3]), ei)
+    with pytest.raises(LayerInputError, match="must have the same batch rows"):
+        conv((x_src.expand(2, -1, -1), x_dst.expand(3, -1, -1)), ei)
+
+
+def test_bipartite_pair_equals_the_same_graph_padded_to_one_node_set():
+    # PyG's convention for bipartite message passing (common practice, no source): with x = (x_s, x_t) of
+    # N_s and N_t nodes, edge_index[0] indexes x_s and edge_index[1] x_t. It must equal the one-node-set
+    # layer on [x_s; 0] -> [0; x_t] with targets shifted by N_s, cuts included.
+    torch.manual_seed(0)
+    n_s, n_t = 4, 6
+    ei = torch.tensor([[0, 1, 1, 3, 2], [0, 0, 2, 5, 5]])
+    conv = InterventionalConv((F_IN, 3), F_OUT)
+    x_s, x_t = torch.randn(n_s, F_IN), torch.randn(n_t, 3)
+    cut = torch.tensor([False, False, False, False, False, True])
+    out = conv((x_s, x_t), ei, intervened=cut)
+    assert out.shape == (n_t, F_OUT)
+    pad_s = torch.cat([x_s, torch.zeros(n_t, F_IN)])
+    pad_t = torch.cat([torch.zeros(n_s, 3), x_t])
+    shifted = ei + torch.tensor([[0], [n_s]])
+    ref = conv((pad_s, pad_t), shifted, intervened=torch.cat([torch.zeros(n_s, dtype=torch.bool), cut]))[n_s:]
+    torch.testing.assert_close(out, ref)
+    # the cut target hears nothing: its output is the update of its own features alone
+    alone = conv((x_s, x_t), ei[:, :0])
+    torch.testing.assert_close(out[5], alone[5])
+    with pytest.raises(LayerInputError, match="refers to target node 6, but x_target has only 6 nodes"):
+        conv((x_s, x_t), torch.tensor([[0], [6]]))
+    with pytest.raises(LayerInputError, match="refers to source node 4, but x_source has only 4 nodes"):
+        conv((x_s, x_t), torch.tensor([[4], [0]]))
+
+
+@pytest.mark.parametrize("with_edges", [False, True])
+def test_direct_sum_equals_pyg_propagate_with_hooks_and_explainer_routed_through_propagate(with_edges):
+    # With sum aggregation and nothing attached, the layer sums its messages itself; the result and its
+    # gradients must equal PyG's propagate() (reference: torch_geometric's MessagePassing, a registry
+    # library). A registered hook must still be called, i.e. the layer then goes through propagate().
+    torch.manual_seed(1)
+    n = 7
+    ei = torch.tensor([[0, 1, 2, 2, 3, 5, 6, 4], [1, 2, 3, 4, 4, 6, 0, 4]])
+    conv = InterventionalConv(F_IN, F_OUT, edge_dim=2 if with_edges else None)
+    attr = torch.randn(ei.size(1), 2) if with_edges else None
+    cut = torch.tensor([False, False, True, False, True, False, False])
+
+    def run(x):
+        return conv(x, ei, intervened=cut, edge_attr=attr)
+
+    x1 = torch.randn(n, F_IN, requires_grad=True)
+    x2 = x1.detach().clone().requires_grad_(True)
+    fast = run(x1)
+    calls = []
+    handle = conv.register_message_forward_hook(lambda module, inputs, out: calls.append(out.shape))
+    slow = run(x2)
+    handle.remove()
+    assert calls, "a registered hook must make the layer use propagate()"
+    torch.testing.assert_close(fast, slow)
+    fast.square().sum().backward()
+    slow.square().sum().backward()
+    torch.testing.assert_close(x1.grad, x2.grad)
+    conv.explain = True  # PyG's explainer switch: propagate() must run (it applies the edge mask there)
+    try:
+        assert not conv._plain_sum()
+    finally:
+        conv.explain = False
+    assert conv._plain_sum()
+    assert not InterventionalConv(F_IN, F_OUT, aggr="mean")._plain_sum()
 
 
 # ------------------------------------------------- aggregation by routing

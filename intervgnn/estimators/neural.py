@@ -123,7 +123,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
     max_table_rows : int
         Largest parent-configuration count for which ``auto`` picks exact mode.
     z_samples : int
-        Prior samples of z per parent configuration when tabulating.
+        Points of z (scrambled Sobol points covering its prior) per parent
+        configuration when tabulating.
     mc_samples : int
         Samples per query in Monte Carlo mode.
     cut : bool
@@ -174,7 +175,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         seed: int = 0,
         mode: str = "auto",
         max_table_rows: int = 4096,
-        z_samples: int = 64,
+        z_samples: int = 16,
         mc_samples: int = 20000,
         cut: bool = True,
         u_states: int = 6,
@@ -518,7 +519,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             s = codes.shape[0]
             cfg = config_index(codes, parents[v], [cards[p] for p in parents[v]])
             node = np.full(s, v)
-            edges = torch.as_tensor(family_edges(parents, cards, node, cfg, model.num_values))
+            edges = torch.as_tensor(family_edges(parents, cards, node, cfg, 0))
             z = torch.randn(s, model.z_dim, generator=gen)
             uu = None if u is None else torch.as_tensor(u)
             with torch.no_grad():

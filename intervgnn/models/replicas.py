@@ -119,9 +119,11 @@ def stack_models(models: Sequence[InterventionalVGAE]) -> InterventionalVGAE:
 
 def mask_replica_grads(model: InterventionalVGAE) -> None:
     """Zero the gradients of the off-diagonal blocks (call after ``backward``, before the optimiser step)."""
-    for p, mask in getattr(model, "_replica_masks", ()):
-        if p.grad is not None:
-            p.grad.mul_(mask.to(device=p.grad.device, dtype=p.grad.dtype))  # no copy where they already agree
+    pairs = [(p.grad, mask.to(device=p.grad.device, dtype=p.grad.dtype))  # no copy where they already agree
+             for p, mask in getattr(model, "_replica_masks", ()) if p.grad is not None]
+    if pairs:
+        grads, masks = zip(*pairs)
+        torch._foreach_mul_(list(grads), list(masks))  # one call for all parameters
 
 
 @torch.no_grad()

@@ -62,11 +62,6 @@ class Mixture:
         return float(self.weight[self.strength > 0].sum())
 
 
-def _loglik(n: np.ndarray, pred: np.ndarray) -> float:
-    """sum n * log(pred) over cells with n > 0."""
-    pos = n > 0
-    return float((n[pos] * np.log(np.maximum(pred[pos], 1e-300))).sum())
-
 
 def mixture_weights(
     counts: np.ndarray,
@@ -103,7 +98,10 @@ def mixture_weights(
         # the decoder never saw its mechanism either; the counts-only answer is uniform
         prior_counts = 1.0
     # counts-only: the plug-in's leave-one-out choice of alpha
-    loo = [_loglik(counts, (counts - 1 + a) / np.maximum(total - 1 + k * a, 1e-300)) for a in alphas]
+    pos = counts > 0
+    n_pos, t_pos = counts[pos], np.broadcast_to(total, counts.shape)[pos]
+    a_col = np.asarray(alphas, dtype=np.float64).reshape(-1, 1)
+    loo = (n_pos * np.log(np.maximum((n_pos - 1 + a_col) / np.maximum(t_pos - 1 + k * a_col, 1e-300), 1e-300))).sum(1)
     best = int(np.argmax(loo))
     strength, alpha, logw = [0.0], [alphas[best]], [np.log(prior_counts) + loo[best]]
     if prior_counts < 1.0 and fold_bases:
@@ -143,9 +141,11 @@ def mixture_rows(counts: np.ndarray, base: np.ndarray, mixture: Mixture) -> np.n
     base = np.asarray(base, dtype=np.float64)
     k = counts.shape[-1]
     total = counts.sum(axis=-1, keepdims=True)
-    out = np.zeros(np.broadcast_shapes(counts.shape, base.shape))
-    for s, a, w in zip(mixture.strength, mixture.alpha, mixture.weight):
-        if w <= 0:
-            continue
-        out += w * (counts + s * base + a) / (total + s + k * a)
+    # sum_j w_j (n + s_j b + a_j) / (N + s_j + k a_j) = n A + b B + C, with per-row weights
+    # c_j = w_j / (N + s_j + k a_j): A = sum c_j, B = sum c_j s_j, C = sum c_j a_j
+    keep = mixture.weight > 0
+    s, a, w = (np.asarray(x, dtype=np.float64)[keep].reshape(-1, 1) for x in (mixture.strength, mixture.alpha, mixture.weight))
+    c = w / (total.reshape(1, -1) + s + k * a)  # [J, rows]
+    shape = total.shape
+    out = counts * c.sum(0).reshape(shape) + base * (c * s).sum(0).reshape(shape) + (c * a).sum(0).reshape(shape)
     return out / out.sum(axis=-1, keepdims=True)

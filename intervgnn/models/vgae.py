@@ -77,13 +77,19 @@ class FamilyBatch:
     enc_edges: Tensor  # [2, E] value nodes -> T + cell
     dec_cell: Tensor  # [D] cell decoded by each decoder item
     dec_u: Tensor  # [D] latent state heard by the item (-1: none)
-    dec_edges: Tensor  # [2, E'] value nodes -> T + decoder item
+    dec_edges: Tensor  # [2, E'] value nodes -> decoder items (bipartite)
     free_item: Tensor  # [C] decoder item of a cell outside every component (-1 for members)
     member_item: Tensor  # [C, S] decoder items of a member cell per latent state (-1 otherwise)
     group_cell: list[Tensor] = field(default_factory=list)  # per component: [R, m] cell ids (-1 intervened)
     group_id: list[int] = field(default_factory=list)
     is_member: Tensor | None = None  # [C] bool
     free_cells: Tensor | None = None  # indices of the cells outside every component
+    # fixed for the batch, looked up once instead of at every training step
+    free_items: Tensor | None = None  # [F] decoder item of each cell in ``free_cells``
+    all_free: bool = False  # no cell in a component: free_cells and free_items are 0..C-1
+    own_value: Tensor | None = None  # [C] value node of each cell's own state
+    dec_node: Tensor | None = None  # [D] node of each decoder item
+    dec_state: Tensor | None = None  # [D] own state of each decoder item
 
     @classmethod
     def from_cells(cls, model: InterventionalVGAE, cells) -> FamilyBatch:
@@ -91,7 +97,7 @@ class FamilyBatch:
         t = model.num_values
         node, cfg, state = cells.node, cells.cfg, cells.state
         n_cells = int(node.size)
-        enc = family_edges(cells.parents, cells.cards, node, cfg, t)
+        enc = family_edges(cells.parents, cells.cards, node, cfg, 0)
         member_group = model.node_group.cpu().numpy()
         is_member = member_group[node] >= 0 if n_cells else np.zeros(0, dtype=bool)
         s = model.u_states if model.num_groups else 1
@@ -103,7 +109,7 @@ class FamilyBatch:
         free_item[free] = np.arange(free.size)
         member_item = np.full((n_cells, s), -1, dtype=np.int64)
         member_item[members] = free.size + np.arange(members.size * s).reshape(members.size, s)
-        dec = family_edges(cells.parents, cells.cards, node[dec_cell], cfg[dec_cell], t)
+        dec = family_edges(cells.parents, cells.cards, node[dec_cell], cfg[dec_cell], 0)
         dev = model.offsets.device
         as_t = lambda a: torch.as_tensor(np.ascontiguousarray(a), dtype=torch.long, device=dev)  # noqa: E731
         index = {g: i for i, g in enumerate(model.groups)}
@@ -115,6 +121,11 @@ class FamilyBatch:
             group_id=[index[tuple(g.members)] for g in cells.groups],
             is_member=torch.as_tensor(is_member, device=dev),
             free_cells=as_t(free),
+            free_items=as_t(free_item[free]),
+            all_free=bool(members.size == 0),
+            own_value=model.offsets[as_t(node)] + as_t(state),
+            dec_node=as_t(node[dec_cell]),
+            dec_state=as_t(state[dec_cell]),
         )
 
 
@@ -217,6 +228,7 @@ class InterventionalVGAE(torch.nn.Module):
             "value_node", torch.repeat_interleave(torch.arange(len(cards)), torch.tensor(cards)), persistent=False
         )
         self.register_buffer("valid", valid, persistent=False)
+        self.register_buffer("value_mechanism", self.mechanism[self.value_node], persistent=False)
         # confounded groups: membership [G, N] and each node's group (-1: none)
         self.groups = [tuple(int(i) for i in g) for g in groups]
         self.num_groups = len(self.groups)
@@ -349,9 +361,11 @@ class InterventionalVGAE(torch.nn.Module):
     # ------------------------------------------------------ family graphs
     def values(self) -> Tensor:
         """Embedding of every (variable, state) plus its mechanism, ``[T, dim]`` (the value nodes)."""
-        return self.state_emb.weight + self.mech_emb(self.mechanism[self.value_node])
+        return self.state_emb.weight + self.mech_emb(self.value_mechanism)
 
-    def encode_families(self, node: Tensor, state: Tensor, edges: Tensor, values: Tensor | None = None):
+    def encode_families(
+        self, node: Tensor, state: Tensor, edges: Tensor, values: Tensor | None = None, own_value: Tensor | None = None
+    ):
         """Posterior ``(mu, logstd)`` of z for each family item (node ``node[j]`` in state ``state[j]``).
 
         ``edges`` are built by :func:`family_edges` (value nodes -> items).
@@ -359,10 +373,9 @@ class InterventionalVGAE(torch.nn.Module):
         ``j`` hears its parents' value embeddings and knows its own.
         """
         values = self.values() if values is None else values
-        t = values.size(0)
         # an embedding lookup, not advanced indexing: its backward sums in a fixed order (see decode)
-        own = torch.nn.functional.embedding(self.offsets[node] + state, values)
-        h = self.encoder(torch.cat([values, own]), edges)[t:]
+        own = torch.nn.functional.embedding(self.offsets[node] + state if own_value is None else own_value, values)
+        h = self.encoder((values, own), edges)  # bipartite: value nodes -> items
         mu, logstd = h.split([self.z_dim, self.z_dim], dim=-1)
         return mu, logstd.clamp(_LOGSTD_MIN, _LOGSTD_MAX)
 
@@ -375,7 +388,6 @@ class InterventionalVGAE(torch.nn.Module):
         parent values, z and latent state.
         """
         values = self.values() if values is None else values
-        t = values.size(0)
         dst = self.mech_emb(self.mechanism[node]) + self.z_proj(z)
         if self.num_groups and u is not None:
             g = self.node_group[node]
@@ -383,9 +395,7 @@ class InterventionalVGAE(torch.nn.Module):
             flat = self.u_emb.reshape(self.num_groups * self.u_states, -1)
             contrib = torch.nn.functional.embedding(g.clamp_min(0) * self.u_states + u.clamp_min(0), flat)
             dst = dst + contrib * hears.unsqueeze(-1).to(dst.dtype)
-        src = torch.cat([values, values.new_zeros(dst.size(0), values.size(1))])
-        dst = torch.cat([dst.new_zeros(t, dst.size(1)), dst])
-        h = self.decoder((src, dst), edges)[t:]
+        h = self.decoder((values, dst), edges)  # bipartite: value nodes -> items
         index = self.state_index[node]
         if self.replicas > 1:  # [D, R, K]: each replica's hidden slice against its own output embeddings
             r = self.replicas
@@ -410,7 +420,7 @@ class InterventionalVGAE(torch.nn.Module):
         log-likelihoods are the decoder's predictions from the parents alone.
         """
         values = self.values()
-        mu, logstd = self.encode_families(batch.node, batch.state, batch.enc_edges, values)
+        mu, logstd = self.encode_families(batch.node, batch.state, batch.enc_edges, values, batch.own_value)
         if prior_mean:
             z = torch.zeros_like(mu)
         elif self.training:
@@ -425,9 +435,11 @@ class InterventionalVGAE(torch.nn.Module):
         else:
             z = mu
         cell = batch.dec_cell
-        z_items = torch.nn.functional.embedding(cell, z)  # a member cell is decoded once per latent state
-        logits = self.decode_families(batch.node[cell], z_items, batch.dec_edges, batch.dec_u, values)
-        own = batch.state[cell].unsqueeze(-1)
+        # a member cell is decoded once per latent state; with no member, items are the cells in order
+        z_items = z if batch.all_free else torch.nn.functional.embedding(cell, z)
+        dec_node = batch.node[cell] if batch.dec_node is None else batch.dec_node
+        logits = self.decode_families(dec_node, z_items, batch.dec_edges, batch.dec_u, values)
+        own = (batch.state[cell] if batch.dec_state is None else batch.dec_state).unsqueeze(-1)
         if self.replicas > 1:  # logp [D, R], kl [C, R]
             logp = torch.log_softmax(logits, dim=-1).gather(2, own.unsqueeze(1).expand(-1, self.replicas, 1)).squeeze(-1)
             kl = _kl(mu.view(mu.size(0), self.replicas, -1), logstd.view(mu.size(0), self.replicas, -1))
@@ -468,9 +480,14 @@ def family_elbo(
         if batch.group_cell:
             raise ValueError("replicated models have no confounded groups")
         total = logp.new_zeros(model.replicas) if prior_mean else (weight * (-kl.t())).sum(1)
-        return total + (weight[:, batch.free_cells] * logp[batch.free_item[batch.free_cells]].t()).sum(1)
+        if batch.all_free:  # cells and decoder items coincide
+            return total + (weight * logp.t()).sum(1)
+        return total + (weight[:, batch.free_cells] * logp[_free_items(batch)].t()).sum(1)
     total = logp.new_zeros(()) if prior_mean else (weight * (-kl)).sum()
-    total = total + (weight[batch.free_cells] * logp[batch.free_item[batch.free_cells]]).sum()
+    if batch.all_free:
+        total = total + (weight * logp).sum()
+    else:
+        total = total + (weight[batch.free_cells] * logp[_free_items(batch)]).sum()
     if batch.group_cell and batch.node.numel():  # with no cell at all every member was set: no group term
         logprior = torch.log_softmax(model.u_prior, dim=-1)
         s = model.u_states
@@ -483,6 +500,10 @@ def family_elbo(
             joint = (lookup * took).sum(1) + logprior[gid]
             total = total + (w * torch.logsumexp(joint, dim=-1)).sum()
     return total
+
+
+def _free_items(batch: FamilyBatch) -> Tensor:
+    return batch.free_item[batch.free_cells] if batch.free_items is None else batch.free_items
 
 
 def _kl(mu: Tensor, logstd: Tensor) -> Tensor:

@@ -203,7 +203,11 @@ class InterventionalConv(MessagePassing):
             x (torch.Tensor or tuple): Node features ``[N, F]`` or
                 ``[B, N, F]``; or a pair ``(x_source, x_target)`` of features
                 of the same nodes in their two roles (what a node sends to
-                its children, and what it knows of itself).
+                its children, and what it knows of itself), or, as in PyG,
+                of two node sets for a bipartite graph (``[N_s, F_s]`` and
+                ``[N_t, F_t]``: ``edge_index[0]`` indexes the sources,
+                ``edge_index[1]`` the targets; ``intervened`` and the output
+                are over the targets).
             edge_index (torch.Tensor): Parent -> child edges ``[2, E]``
                 (sparse layouts are refused).
             intervened (torch.Tensor, optional): Bool mask ``[N]`` (or
@@ -214,15 +218,59 @@ class InterventionalConv(MessagePassing):
                 rows.
         """
         x_src, x_dst = self._check_x(x)
-        check_edge_index(edge_index, x_dst.size(-2))
+        n_src, n_dst = x_src.size(-2), x_dst.size(-2)
+        if n_src == n_dst:
+            check_edge_index(edge_index, n_dst)
+        else:  # bipartite: edge_index[0] indexes x_source, edge_index[1] x_target
+            check_edge_index(edge_index, n_src, n_dst, source="x_source has", target="x_target has")
         if isinstance(intervened, Tensor) and x_dst.dim() == 3 and intervened.dim() == 1:
             check_mask(intervened, x_dst[0])  # one set shared by every row
         else:
             check_mask(intervened, x_dst)
         edge_attr = self._check_edge_attr(edge_attr, x_dst, edge_index.size(1))
         cut = None if intervened is None else cut_mask(edge_index, intervened)
-        agg = self.propagate(edge_index, x=(x_src, x_dst), edge_attr=edge_attr, cut=cut)
+        # the message MLP's first layer on [x_j, x_i(, e)] is W_s x_j + W_t x_i (+ W_e e) + b: applied to
+        # the nodes before the messages are gathered, not to every edge (E is usually larger than N)
+        first = self.message_mlp.lins[0]
+        s, d = self._channels
+        a = torch.nn.functional.linear(x_src, first.weight[:, :s])
+        b = torch.nn.functional.linear(x_dst, first.weight[:, s : s + d], first.bias)
+        if x_dst.dim() == 2 and self._plain_sum():
+            agg = self._sum_messages(a, b, edge_index, edge_attr, cut, n_dst)
+        else:
+            agg = self.propagate(edge_index, x=(a, b), edge_attr=edge_attr, cut=cut, size=(n_src, n_dst))
         return self.update_mlp(torch.cat([x_dst, agg], dim=-1))
+
+    def _plain_sum(self) -> bool:
+        """True when :meth:`propagate` would do nothing but gather, :meth:`message` and sum.
+
+        That is: sum aggregation, no explainer attached, no decomposition
+        into layers and no propagate / message / aggregate hooks. Then
+        :meth:`_sum_messages` computes the same in fewer operations (PyG's
+        generic machinery costs about as much as the arithmetic on a few
+        thousand edges).
+        """
+        return (
+            self.aggr in ("add", "sum")
+            and not self.explain
+            and self.decomposed_layers == 1
+            and not (
+                self._propagate_forward_pre_hooks or self._propagate_forward_hooks
+                or self._message_forward_pre_hooks or self._message_forward_hooks
+                or self._aggregate_forward_pre_hooks or self._aggregate_forward_hooks
+            )
+        )
+
+    def _sum_messages(
+        self, x_src: Tensor, x_dst: Tensor, edge_index: Tensor, edge_attr: OptTensor, cut: OptTensor, n_dst: int
+    ) -> Tensor:
+        """Sum of the messages into each target ``[N_t, H]`` (a cut message is dropped), as ``propagate`` sums them."""
+        src, dst = edge_index[0], edge_index[1]
+        msg = self.message(x_dst.index_select(0, dst), x_src.index_select(0, src), edge_attr)
+        if cut is None:
+            return msg.new_zeros(n_dst, msg.size(-1)).index_add_(0, dst, msg)
+        # a cut message goes to the extra row n_dst, which is dropped
+        return msg.new_zeros(n_dst + 1, msg.size(-1)).index_add_(0, torch.where(cut, n_dst, dst), msg)[:n_dst]
 
     def _check_x(self, x) -> tuple[Tensor, Tensor]:
         if isinstance(x, (tuple, list)):
@@ -238,9 +286,9 @@ class InterventionalConv(MessagePassing):
         for t, role in zip((x_src, x_dst), roles):
             if t.dim() not in (2, 3):
                 raise LayerInputError(f"{role} must be a [N, F] or [B, N, F] tensor, got shape {list(t.shape)}")
-        if x_src.shape[:-1] != x_dst.shape[:-1]:
+        if x_src.shape[:-2] != x_dst.shape[:-2]:
             raise LayerInputError(
-                f"x_source {list(x_src.shape)} and x_target {list(x_dst.shape)} must describe the same nodes"
+                f"x_source {list(x_src.shape)} and x_target {list(x_dst.shape)} must have the same batch rows"
             )
         for t, role, want in zip((x_src, x_dst), roles, self._channels):
             if t.size(-1) != want:
@@ -284,12 +332,15 @@ class InterventionalConv(MessagePassing):
         return edge_attr
 
     def message(self, x_i: Tensor, x_j: Tensor, edge_attr: OptTensor) -> Tensor:
-        parts = [x_j, x_i]
+        # x_j, x_i: the first layer of the message MLP already applied to the source / target (see forward)
+        h = x_j + x_i
+        mlp = self.message_mlp
         if edge_attr is not None:
-            if edge_attr.dim() < x_j.dim():
-                edge_attr = edge_attr.expand(x_j.shape[:-1] + edge_attr.shape[-1:])
-            parts.append(edge_attr)
-        return self.message_mlp(torch.cat(parts, dim=-1))
+            e = torch.nn.functional.linear(edge_attr, mlp.lins[0].weight[:, sum(self._channels) :])
+            h = h + (e if e.dim() == h.dim() else e.expand_as(h))
+        for lin in mlp.lins[1:]:  # the rest of the MLP (no norms, no dropout: built so in __init__)
+            h = lin(mlp.act(h))
+        return h
 
     def aggregate(
         self, inputs: Tensor, index: Tensor, ptr: OptTensor = None, dim_size: int | None = None, cut: OptTensor = None
