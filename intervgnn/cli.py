@@ -257,6 +257,130 @@ def _run_sweep(args) -> int:
     return 0
 
 
+# ---------------------------------------------------------------- relational data
+
+
+def _relational_data(args, schema):
+    """The relational data of ``--data`` (a folder of CSV files) or ``--sqlite`` (a database file)."""
+    from .relational import RelationalData
+
+    if bool(args.data) == bool(args.sqlite):
+        raise IntervgnnError("give the data as --data FOLDER (CSV files) or --sqlite FILE, one of them")
+    if args.data:
+        return RelationalData.from_csv_folder(args.data, schema)
+    return RelationalData.from_sqlite(args.sqlite, schema)
+
+
+_RELATIONAL_ESTIMATORS = ("neural", "plugin", "unlinked")
+
+
+def _relational_estimator(args):
+    from .relational import RelationalPluginEstimator, UnlinkedPluginEstimator
+    from .relational.neural import RelationalNeuralEstimator
+
+    if args.estimator == "plugin":
+        return RelationalPluginEstimator()
+    if args.estimator == "unlinked":
+        return UnlinkedPluginEstimator()
+    return RelationalNeuralEstimator(**_neural_settings(args))
+
+
+def _relational_fit_line(est, data) -> str:
+    n = sum(len(ids) for ids in data.skeleton.instances.values())
+    links = sum(len(v) for v in data.skeleton.links.values())
+    line = f"fitted the {est.name} estimator on {n:,} instances, {links:,} links, {data.num_draws} draw(s)"
+    if hasattr(est, "neural_share_"):
+        shares = ", ".join(f"{e}.{a} {s:.2f}" for (e, a), s in est.neural_share_.items())
+        line += f"; weight of the neural prior per mechanism: {shares}"
+    return line
+
+
+def cmd_relational_fit(args) -> int:
+    from .relational import read_template, write_template
+
+    structure = read_template(args.template, cpts=False)
+    data = _relational_data(args, structure.schema)
+    est = _relational_estimator(args).fit(data, structure)
+    write_template(est.template_, args.out)
+    print(_relational_fit_line(est, data))
+    print(f"fitted template (schema, structure and CPTs) saved to {args.out}; answer queries on any skeleton with "
+          f"'intervgnn relational-query --template {args.out} ...'")
+    return 0
+
+
+def _entity_attribute(text: str, flag: str) -> tuple[str, str]:
+    entity, dot, attribute = (text or "").partition(".")
+    if not dot or not entity or not attribute:
+        raise IntervgnnError(f"{flag} expects ENTITY.ATTRIBUTE, got '{text}'")
+    return entity, attribute
+
+
+def _relational_query(args):
+    from .relational import Policy, PopulationQuery, SpilloverQuery, UnitQuery
+
+    kinds = [k for k in ("target", "population", "spillover") if getattr(args, k)]
+    if len(kinds) != 1:
+        raise IntervgnnError("ask one query: --target NAME (a unit query), --population ENTITY.ATTRIBUTE or "
+                             "--spillover NAME")
+    if args.target:
+        return UnitQuery(args.target, do=_assignments(args.do, "--do"), given=_assignments(args.given, "--given"))
+    if args.population:
+        entity, attribute = _entity_attribute(args.population, "--population")
+        policy = None
+        if args.policy:
+            left, eq, state = args.policy.partition("=")
+            if not eq or not state:
+                raise IntervgnnError(f"--policy expects ENTITY.ATTRIBUTE=STATE, got '{args.policy}'")
+            pe, pa = _entity_attribute(left, "--policy")
+            units = [u.strip() for u in args.units.split(",")] if args.units else None
+            policy = Policy(pe, pa, state.strip(), instances=units, share=args.share,
+                            seed=check_seed(args.policy_seed, name="--policy-seed"))
+        elif args.share is not None or args.units:
+            raise IntervgnnError("--share and --units shape a --policy; give the policy too")
+        return PopulationQuery(entity, attribute, policy)
+    missing = [f for f in ("treatment", "treated", "untreated", "state") if not getattr(args, f)]
+    if missing:
+        raise IntervgnnError(f"--spillover needs --treatment, --treated, --untreated and --state; missing --{missing[0]}")
+    te, ta = _entity_attribute(args.treatment, "--treatment")
+    return SpilloverQuery(args.spillover, te, ta, args.treated, args.untreated, args.state)
+
+
+def cmd_relational_query(args) -> int:
+    from .relational import RelationalData, read_skeleton, read_template
+    from .relational.estimate import SpilloverEffects, exact_answer
+
+    template = read_template(args.template)
+    if bool(args.skeleton) == bool(args.sqlite):
+        raise IntervgnnError("give the skeleton as --skeleton FOLDER (CSV files) or --sqlite FILE, one of them")
+    if args.skeleton:
+        skeleton = read_skeleton(args.skeleton, template.schema)
+    else:
+        skeleton = RelationalData.from_sqlite(args.sqlite, template.schema).skeleton
+    query = _relational_query(args)
+    answer = exact_answer(template, skeleton, query)
+    where = f"the template {args.template} grounded on {args.skeleton or args.sqlite}"
+    if isinstance(answer, SpilloverEffects):
+        payload = dataclasses.asdict(answer)
+        if args.json:
+            print(json.dumps({"spillover": payload, "source": where, "caution": CAUTION}, indent=2))
+            return 0
+        print(f"Spill-over on P({query.outcome} = {query.state}) from {where}:")
+        print(f"  own treatment units       {', '.join(answer.own_units) or '(none)'}")
+        print(f"  neighbour treatment units {', '.join(answer.neighbour_units) or '(none)'}")
+        print(f"  own alone        {answer.own:+.4f}")
+        print(f"  neighbours alone {answer.neighbours:+.4f}")
+        print(f"  both             {answer.both:+.4f}")
+    elif args.json:
+        print(json.dumps({"estimate": answer.to_dict(), "source": where, "caution": CAUTION}, indent=2))
+        return 0
+    else:
+        print(f"Answer from {where}:")
+        print(answer)
+    print()
+    print(CAUTION)
+    return 0
+
+
 def cmd_identify(args) -> int:
     from .identify import identify
     from .userdata import load_graph
@@ -388,6 +512,44 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--given", nargs="+", metavar="Z", help="observed variable(s)")
     s.add_argument("--json", action="store_true")
     s.set_defaults(func=cmd_identify)
+
+    s = sub.add_parser(
+        "relational-fit", help="fit a relational template's CPTs on relational data and save the fitted template",
+    )
+    s.add_argument("--template", required=True, help="template file (YAML): schema and structure; CPTs may be left out")
+    s.add_argument("--data", help="folder of CSV files: one per entity type (id, attributes), one per relationship")
+    s.add_argument("--sqlite", help="SQLite database file with the same tables")
+    s.add_argument("--estimator", choices=_RELATIONAL_ESTIMATORS, default="neural",
+                   help="neural (default), plugin (tied counts) or unlinked (counts that ignore the links)")
+    s.add_argument("--seed", type=int, default=0)
+    s.add_argument("--steps", type=int, help="full-batch training steps per cross-fitted model (neural; default 100)")
+    s.add_argument("--threads", type=int, help="torch threads while fitting (neural; default 1)")
+    s.add_argument("--quiet", action="store_true", help="no progress bar")
+    s.add_argument("--out", required=True, help="file to write the fitted template to (YAML)")
+    s.set_defaults(func=cmd_relational_fit)
+
+    s = sub.add_parser(
+        "relational-query",
+        help="answer a unit, population or spill-over do-query with a (fitted) template on a skeleton",
+    )
+    s.add_argument("--template", required=True, help="template file with CPTs (e.g. written by relational-fit)")
+    s.add_argument("--skeleton", help="folder of CSV files with the instances and links (attribute columns ignored)")
+    s.add_argument("--sqlite", help="SQLite database file holding the skeleton")
+    s.add_argument("--target", help="unit query: an instance attribute, e.g. orchard_17__Yield")
+    s.add_argument("--do", action="append", metavar="NAME=STATE", help="unit query: an intervention (repeatable)")
+    s.add_argument("--given", action="append", metavar="NAME=STATE", help="unit query: evidence (repeatable)")
+    s.add_argument("--population", metavar="ENTITY.ATTRIBUTE", help="population query: the average over all instances")
+    s.add_argument("--policy", metavar="ENTITY.ATTRIBUTE=STATE", help="population query: the intervention policy")
+    s.add_argument("--share", type=float, help="policy on a seeded random share of the instances (0 to 1)")
+    s.add_argument("--units", metavar="ID,ID", help="policy on these instances only")
+    s.add_argument("--policy-seed", type=int, default=0, help="seed of the --share draw (default 0)")
+    s.add_argument("--spillover", metavar="NAME", help="spill-over query on this outcome, e.g. orchard_17__Yield")
+    s.add_argument("--treatment", metavar="ENTITY.ATTRIBUTE", help="spill-over: the treatment attribute")
+    s.add_argument("--treated", help="spill-over: the treatment's treated state")
+    s.add_argument("--untreated", help="spill-over: the treatment's untreated state")
+    s.add_argument("--state", help="spill-over: the outcome state compared")
+    s.add_argument("--json", action="store_true")
+    s.set_defaults(func=cmd_relational_query)
 
     s = sub.add_parser("demo", help="a short demonstration on the invented greenhouse network")
     s.set_defaults(func=cmd_demo)

@@ -111,3 +111,18 @@ def test_query_errors():
 def test_unknown_network():
     with pytest.raises(UnknownNetworkError, match="unknown network 'nope': not a shipped network"):
         load_network("nope")
+
+
+def test_marginals_equal_one_query_per_target_under_one_intervention():
+    # marginals() is query() per target with the intervention checked once (the exact answers of query() are
+    # checked against pgmpy in test_exact_vs_pgmpy.py); an intervened target gets its point mass
+    net = load_network("cancer")
+    do = {"Smoker": "True", "Pollution": "high"}
+    targets = ["Dyspnoea", "Xray", "Smoker"]
+    got = net.marginals(targets, do)
+    for t, p in zip(targets[:2], got):
+        np.testing.assert_allclose(p, net.query(t, do=do).probs, atol=1e-12)
+    np.testing.assert_array_equal(got[2], [1.0, 0.0])  # Smoker set to its first state
+    assert net.marginals([], do) == []
+    with pytest.raises(QueryError, match="unknown"):
+        net.marginals(["nope"], do)

@@ -300,6 +300,32 @@ class CausalNetwork:
         probs = self._engine.query_array(q.targets, self._codes(q.do_dict), self._codes(q.given_dict))
         return Distribution(q.targets, [self._states[t] for t in q.targets], probs, description=q.describe())
 
+    def marginals(self, targets: Sequence[str], do: Mapping[str, str] | None = None) -> list[np.ndarray]:
+        """P(v | do(...)) for each variable ``v`` of ``targets``, one exact query each, ``do`` checked once.
+
+        For many targets under one large intervention (a population query
+        on a ground network sets thousands of variables): the assignment is
+        validated and coded once, not per target. A target that is itself
+        intervened gets the point mass on its set state.
+
+        Raises
+        ------
+        QueryError
+            As :meth:`query`.
+        """
+        do = check_assignment(self._states, do)
+        codes = self._codes(do)
+        out = []
+        for v in targets:
+            check_variable(self._states, v, "target")
+            if v in do:
+                p = np.zeros(len(self._states[v]))
+                p[codes[v]] = 1.0
+                out.append(p)
+            else:
+                out.append(self._engine.query_array([v], codes, {}))
+        return out
+
     def query_each(
         self,
         target: str | Sequence[str],

@@ -90,6 +90,8 @@ class FamilyBatch:
     own_value: Tensor | None = None  # [C] value node of each cell's own state
     dec_node: Tensor | None = None  # [D] node of each decoder item
     dec_state: Tensor | None = None  # [D] own state of each decoder item
+    enc_attr: Tensor | None = None  # [E, edge_dim] features of enc_edges (models built with edge_dim)
+    dec_attr: Tensor | None = None  # [E', edge_dim] features of dec_edges
 
     @classmethod
     def from_cells(cls, model: InterventionalVGAE, cells) -> FamilyBatch:
@@ -184,6 +186,12 @@ class InterventionalVGAE(torch.nn.Module):
         Disjoint node sets sharing a hidden common cause (each of two or more nodes).
     u_states : int
         Number of states of each group's latent.
+    edge_dim : int, optional
+        Features per parent edge, for family batches whose edges carry them
+        (``FamilyBatch.enc_attr`` / ``dec_attr``; the relational model's
+        edges from related instances carry how many of them are in each
+        state). The row-wise path (:meth:`encode`, :meth:`decode`) has no
+        edge features and needs ``edge_dim=None``.
 
     Shapes
     ------
@@ -204,6 +212,7 @@ class InterventionalVGAE(torch.nn.Module):
         encoder_hidden: int | None = None,
         groups: Sequence[Sequence[int]] = (),
         u_states: int = 4,
+        edge_dim: int | None = None,
     ):
         super().__init__()
         cards = [int(c) for c in cards]
@@ -244,12 +253,15 @@ class InterventionalVGAE(torch.nn.Module):
         self.encoder_hidden = encoder_hidden or hidden
         self.state_emb = torch.nn.Embedding(total, dim)
         self.mech_emb = torch.nn.Embedding(max(mech) + 1, dim)
-        self.encoder = InterventionalConv(dim, 2 * z_dim, hidden_channels=self.encoder_hidden, num_layers=num_layers)
+        self.edge_dim = edge_dim
+        self.encoder = InterventionalConv(
+            dim, 2 * z_dim, hidden_channels=self.encoder_hidden, num_layers=num_layers, edge_dim=edge_dim
+        )
         self.z_proj = torch.nn.Linear(z_dim, dim)
         if self.num_groups:
             self.u_prior = torch.nn.Parameter(torch.zeros(self.num_groups, self.u_states))
             self.u_emb = torch.nn.Parameter(torch.empty(self.num_groups, self.u_states, dim))
-        self.decoder = InterventionalConv((dim, dim), hidden, hidden_channels=hidden, num_layers=num_layers)
+        self.decoder = InterventionalConv((dim, dim), hidden, hidden_channels=hidden, num_layers=num_layers, edge_dim=edge_dim)
         self.out_emb = torch.nn.Embedding(total + 1, hidden)
         self.out_bias = torch.nn.Embedding(total + 1, 1)
         self.replicas = 1  # models side by side on every feature axis (see intervgnn.models.replicas)
@@ -364,7 +376,13 @@ class InterventionalVGAE(torch.nn.Module):
         return self.state_emb.weight + self.mech_emb(self.value_mechanism)
 
     def encode_families(
-        self, node: Tensor, state: Tensor, edges: Tensor, values: Tensor | None = None, own_value: Tensor | None = None
+        self,
+        node: Tensor,
+        state: Tensor,
+        edges: Tensor,
+        values: Tensor | None = None,
+        own_value: Tensor | None = None,
+        edge_attr: Tensor | None = None,
     ):
         """Posterior ``(mu, logstd)`` of z for each family item (node ``node[j]`` in state ``state[j]``).
 
@@ -375,11 +393,19 @@ class InterventionalVGAE(torch.nn.Module):
         values = self.values() if values is None else values
         # an embedding lookup, not advanced indexing: its backward sums in a fixed order (see decode)
         own = torch.nn.functional.embedding(self.offsets[node] + state if own_value is None else own_value, values)
-        h = self.encoder((values, own), edges)  # bipartite: value nodes -> items
+        h = self.encoder((values, own), edges, edge_attr=edge_attr)  # bipartite: value nodes -> items
         mu, logstd = h.split([self.z_dim, self.z_dim], dim=-1)
         return mu, logstd.clamp(_LOGSTD_MIN, _LOGSTD_MAX)
 
-    def decode_families(self, node: Tensor, z: Tensor, edges: Tensor, u: Tensor | None = None, values: Tensor | None = None) -> Tensor:
+    def decode_families(
+        self,
+        node: Tensor,
+        z: Tensor,
+        edges: Tensor,
+        u: Tensor | None = None,
+        values: Tensor | None = None,
+        edge_attr: Tensor | None = None,
+    ) -> Tensor:
         """Logits ``[D, K_max]`` of p(x | parents, z[, u]) for each family item; padded states are ``-inf``.
 
         ``u [D]`` is the state of the node's component latent (-1: none, as
@@ -395,7 +421,7 @@ class InterventionalVGAE(torch.nn.Module):
             flat = self.u_emb.reshape(self.num_groups * self.u_states, -1)
             contrib = torch.nn.functional.embedding(g.clamp_min(0) * self.u_states + u.clamp_min(0), flat)
             dst = dst + contrib * hears.unsqueeze(-1).to(dst.dtype)
-        h = self.decoder((values, dst), edges)  # bipartite: value nodes -> items
+        h = self.decoder((values, dst), edges, edge_attr=edge_attr)  # bipartite: value nodes -> items
         index = self.state_index[node]
         if self.replicas > 1:  # [D, R, K]: each replica's hidden slice against its own output embeddings
             r = self.replicas
@@ -420,7 +446,9 @@ class InterventionalVGAE(torch.nn.Module):
         log-likelihoods are the decoder's predictions from the parents alone.
         """
         values = self.values()
-        mu, logstd = self.encode_families(batch.node, batch.state, batch.enc_edges, values, batch.own_value)
+        mu, logstd = self.encode_families(
+            batch.node, batch.state, batch.enc_edges, values, batch.own_value, batch.enc_attr
+        )
         if prior_mean:
             z = torch.zeros_like(mu)
         elif self.training:
@@ -438,7 +466,7 @@ class InterventionalVGAE(torch.nn.Module):
         # a member cell is decoded once per latent state; with no member, items are the cells in order
         z_items = z if batch.all_free else torch.nn.functional.embedding(cell, z)
         dec_node = batch.node[cell] if batch.dec_node is None else batch.dec_node
-        logits = self.decode_families(dec_node, z_items, batch.dec_edges, batch.dec_u, values)
+        logits = self.decode_families(dec_node, z_items, batch.dec_edges, batch.dec_u, values, batch.dec_attr)
         own = (batch.state[cell] if batch.dec_state is None else batch.dec_state).unsqueeze(-1)
         if self.replicas > 1:  # logp [D, R], kl [C, R]
             logp = torch.log_softmax(logits, dim=-1).gather(2, own.unsqueeze(1).expand(-1, self.replicas, 1)).squeeze(-1)

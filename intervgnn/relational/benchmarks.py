@@ -92,6 +92,8 @@ DEGREE_DISTRIBUTIONS = ("poisson", "uniform", "heavy-tailed")
 #: bump when a drawing procedure changes (a spec then names another benchmark)
 GENERATOR_VERSION = 1
 _PARETO_SHAPE = 2.5
+#: the most bins a benchmark's aggregate may have
+MAX_BINS = 100
 _TEMPLATE_STREAM, _SKELETON_STREAM = 1, 2
 
 
@@ -147,11 +149,59 @@ def _rows(rng: np.random.Generator, shape: tuple[int, ...], concentration: float
     return table.reshape(shape)
 
 
+def _bins_setting(bins) -> int | None:
+    if bins is None:
+        return None
+    return _whole(bins, "bins", 2, MAX_BINS)
+
+
+def _share(attribute: str, state: str, relationship: str, bins: int | None) -> Aggregate:
+    edges = [0, 0.5, 1] if bins is None else np.linspace(0.0, 1.0, bins + 1).round(6).tolist()
+    return Aggregate(relationship, attribute, state, SHARE, edges, direction=AGAINST)
+
+
+def _count(attribute: str, state: str, relationship: str, bins: int | None) -> Aggregate:
+    edges = [0, 1, 3] if bins is None else list(range(bins))
+    return Aggregate(relationship, attribute, state, COUNT, edges, direction=AGAINST)
+
+
+def _positions(g: Aggregate) -> np.ndarray:
+    """Where each bin of ``g`` lies on [0, 1] (share: its middle, "no related" at 0; count: evenly)."""
+    if g.kind == SHARE:
+        e = np.asarray(g.edges, dtype=float)
+        return np.concatenate([[0.0], (e[:-1] + e[1:]) / 2])
+    return np.linspace(0.0, 1.0, g.num_bins)
+
+
+def _aggregated_rows(rng, own_shape: tuple, aggregates, k: int, c: float, smooth: bool) -> np.ndarray:
+    """CPT rows over (own parents, aggregate bins, state).
+
+    Not ``smooth``: every row drawn on its own, as :func:`_rows`. ``smooth``:
+    a Dirichlet row per own configuration, moved on the logit scale along a
+    random direction per aggregate in proportion to the bin's position
+    (``logit = log base + sum_j pos_j(bin_j) v_j``, ``v_j ~ N(0, 2^2 I)``),
+    so that neighbouring bins have similar rows: the shape of effect a
+    model that shares strength across bins can use.
+    """
+    bins = tuple(g.num_bins for g in aggregates)
+    if not smooth:
+        return _rows(rng, own_shape + bins + (k,), c)
+    base = np.log(_rows(rng, own_shape + (k,), c))
+    logits = base.reshape(own_shape + (1,) * len(bins) + (k,))
+    for j, g in enumerate(aggregates):
+        v = rng.normal(0.0, 2.0, size=k)
+        pos = _positions(g).reshape((1,) * (len(own_shape) + j) + (-1,) + (1,) * (len(bins) - j - 1) + (1,))
+        logits = logits + pos * v
+    logits = np.broadcast_to(logits, own_shape + bins + (k,))
+    p = np.exp(logits - logits.max(axis=-1, keepdims=True))
+    return p / p.sum(axis=-1, keepdims=True)
+
+
 def _template_rng(seed, concentration) -> tuple[np.random.Generator, float]:
     return np.random.default_rng([_seed(seed), _TEMPLATE_STREAM]), _concentration(concentration)
 
 
-def bipartite_template(seed: int = 0, concentration: float = 1.0) -> Template:
+def bipartite_template(seed: int = 0, concentration: float = 1.0, bins: int | None = None) -> Template:
     """The fruit co-operative: hives pollinate orchards (see the module notes).
 
     Mechanisms and CPT axes: ``hive.Treated`` (Treated); ``hive.Strength``
@@ -166,6 +216,11 @@ def bipartite_template(seed: int = 0, concentration: float = 1.0) -> Template:
         Seed of the CPT draw (a non-negative whole number).
     concentration : float, default 1.0
         From 0.01 to 1000.
+    bins : int, optional
+        Bins of every aggregate (2 to 100) instead of the default ones
+        (shares: ``bins`` equal intervals plus "no related"; counts: 0, 1,
+        ..., ``bins - 1`` or more). With ``bins`` the rows of an aggregating
+        mechanism vary smoothly with the bin (see :func:`_aggregated_rows`).
 
     Raises
     ------
@@ -179,6 +234,7 @@ def bipartite_template(seed: int = 0, concentration: float = 1.0) -> Template:
     (2, 3, 3, 3)
     """
     rng, c = _template_rng(seed, concentration)
+    bins = _bins_setting(bins)
     schema = Schema(
         {
             "hive": {"Treated": ["no", "yes"], "Strength": ["weak", "strong"]},
@@ -186,20 +242,21 @@ def bipartite_template(seed: int = 0, concentration: float = 1.0) -> Template:
         },
         {"pollinates": ("hive", "orchard")},
     )
-    treated = Aggregate("pollinates", "Treated", "yes", SHARE, [0, 0.5, 1], direction=AGAINST)
-    strong = Aggregate("pollinates", "Strength", "strong", SHARE, [0, 0.5, 1], direction=AGAINST)
+    treated = _share("Treated", "yes", "pollinates", bins)
+    strong = _share("Strength", "strong", "pollinates", bins)
     return Template(
         schema,
         [
             Mechanism("hive", "Treated", _rows(rng, (2,), c)),
             Mechanism("hive", "Strength", _rows(rng, (2, 2), c), parents=["Treated"]),
             Mechanism("orchard", "Soil", _rows(rng, (2,), c)),
-            Mechanism("orchard", "Yield", _rows(rng, (2, 3, 3, 3), c), parents=["Soil"], aggregates=[treated, strong]),
+            Mechanism("orchard", "Yield", _aggregated_rows(rng, (2,), [treated, strong], 3, c, bins is not None),
+                      parents=["Soil"], aggregates=[treated, strong]),
         ],
     )
 
 
-def peer_template(seed: int = 0, concentration: float = 1.0) -> Template:
+def peer_template(seed: int = 0, concentration: float = 1.0, bins: int | None = None) -> Template:
     """Beekeepers who advise each other (see the module notes).
 
     Mechanisms and CPT axes: ``keeper.Training`` (Training);
@@ -217,21 +274,23 @@ def peer_template(seed: int = 0, concentration: float = 1.0) -> Template:
         A bad seed or concentration.
     """
     rng, c = _template_rng(seed, concentration)
+    bins = _bins_setting(bins)
     schema = Schema(
         {"keeper": {"Training": ["none", "some"], "Practice": ["old", "new"]}},
         {"advises": ("keeper", "keeper")},
     )
-    peers_new = Aggregate("advises", "Practice", "new", SHARE, [0, 0.5, 1], direction=AGAINST)
+    peers_new = _share("Practice", "new", "advises", bins)
     return Template(
         schema,
         [
             Mechanism("keeper", "Training", _rows(rng, (2,), c)),
-            Mechanism("keeper", "Practice", _rows(rng, (2, 3, 2), c), parents=["Training"], aggregates=[peers_new]),
+            Mechanism("keeper", "Practice", _aggregated_rows(rng, (2,), [peers_new], 2, c, bins is not None),
+                      parents=["Training"], aggregates=[peers_new]),
         ],
     )
 
 
-def chain_template(seed: int = 0, concentration: float = 1.0) -> Template:
+def chain_template(seed: int = 0, concentration: float = 1.0, bins: int | None = None) -> Template:
     """Nurseries supply groves, groves sell to markets (see the module notes).
 
     Mechanisms and CPT axes: ``nursery.Stock`` (Stock); ``grove.Vigour``
@@ -246,6 +305,7 @@ def chain_template(seed: int = 0, concentration: float = 1.0) -> Template:
         A bad seed or concentration.
     """
     rng, c = _template_rng(seed, concentration)
+    bins = _bins_setting(bins)
     schema = Schema(
         {
             "nursery": {"Stock": ["poor", "good"]},
@@ -254,14 +314,16 @@ def chain_template(seed: int = 0, concentration: float = 1.0) -> Template:
         },
         {"supplies": ("nursery", "grove"), "sells_to": ("grove", "market")},
     )
-    good_stock = Aggregate("supplies", "Stock", "good", SHARE, [0, 0.5, 1], direction=AGAINST)
-    vigorous = Aggregate("sells_to", "Vigour", "high", COUNT, [0, 1, 3], direction=AGAINST)
+    good_stock = _share("Stock", "good", "supplies", bins)
+    vigorous = _count("Vigour", "high", "sells_to", bins)
     return Template(
         schema,
         [
             Mechanism("nursery", "Stock", _rows(rng, (2,), c)),
-            Mechanism("grove", "Vigour", _rows(rng, (3, 2), c), aggregates=[good_stock]),
-            Mechanism("market", "Price", _rows(rng, (3, 3), c), aggregates=[vigorous]),
+            Mechanism("grove", "Vigour", _aggregated_rows(rng, (), [good_stock], 2, c, bins is not None),
+                      aggregates=[good_stock]),
+            Mechanism("market", "Price", _aggregated_rows(rng, (), [vigorous], 3, c, bins is not None),
+                      aggregates=[vigorous]),
         ],
     )
 
@@ -458,6 +520,9 @@ class RelationalSpec:
         Dirichlet concentration of the CPT rows (0.01 to 1000).
     max_degree : int or None
         The most links into one instance, or no bound.
+    bins : int or None
+        Bins of every aggregate, with smooth rows (see
+        :func:`bipartite_template`), or the default bins.
 
     Raises
     ------
@@ -472,6 +537,7 @@ class RelationalSpec:
     distribution: str = "poisson"
     concentration: float = 1.0
     max_degree: int | None = None
+    bins: int | None = None
 
     def __post_init__(self):
         if not isinstance(self.name, str) or self.name not in RELATIONAL_BENCHMARKS:
@@ -486,6 +552,7 @@ class RelationalSpec:
         _distribution(self.distribution)
         object.__setattr__(self, "concentration", _concentration(self.concentration))
         _max_degree(self.max_degree)
+        _bins_setting(self.bins)
 
     @property
     def text(self) -> str:
@@ -498,6 +565,8 @@ class RelationalSpec:
             parts.append(f"concentration={_format_number(self.concentration)}")
         if self.max_degree is not None:
             parts.append(f"max_degree={self.max_degree}")
+        if self.bins is not None:
+            parts.append(f"bins={self.bins}")
         return RELATIONAL_PREFIX + ",".join(parts)
 
     @property
@@ -515,7 +584,7 @@ def is_relational_spec(text) -> bool:
     return isinstance(text, str) and text.startswith(RELATIONAL_PREFIX)
 
 
-_KEYS = ("instances", "degree", "seed", "distribution", "concentration", "max_degree")
+_KEYS = ("instances", "degree", "seed", "distribution", "concentration", "max_degree", "bins")
 
 
 def parse_relational_spec(text: str) -> RelationalSpec:
@@ -524,7 +593,7 @@ def parse_relational_spec(text: str) -> RelationalSpec:
     The first item is the benchmark's name (one of
     :data:`RELATIONAL_BENCHMARKS`); then keys (all optional, any order):
     ``instances``, ``degree``, ``seed``, ``distribution``,
-    ``concentration``, ``max_degree``; defaults are those of
+    ``concentration``, ``max_degree``, ``bins``; defaults are those of
     :class:`RelationalSpec`.
 
     Raises
@@ -590,7 +659,7 @@ def relational_benchmark(spec: RelationalSpec | str = "bipartite", **settings) -
         or a :class:`RelationalSpec`.
     **settings
         ``instances``, ``degree``, ``seed``, ``distribution``,
-        ``concentration``, ``max_degree`` (with a name only).
+        ``concentration``, ``max_degree``, ``bins`` (with a name only).
 
     Returns
     -------
@@ -626,7 +695,7 @@ def relational_benchmark(spec: RelationalSpec | str = "bipartite", **settings) -
     n, common = spec.instances, dict(degree=spec.degree, distribution=spec.distribution, seed=spec.seed,
                                      max_degree=spec.max_degree)
     if spec.name == "bipartite":
-        return bipartite_template(spec.seed, spec.concentration), bipartite_skeleton(n, n, **common)
+        return bipartite_template(spec.seed, spec.concentration, spec.bins), bipartite_skeleton(n, n, **common)
     if spec.name == "peer":
-        return peer_template(spec.seed, spec.concentration), peer_skeleton(n, **common)
-    return chain_template(spec.seed, spec.concentration), chain_skeleton(n, n, n, **common)
+        return peer_template(spec.seed, spec.concentration, spec.bins), peer_skeleton(n, **common)
+    return chain_template(spec.seed, spec.concentration, spec.bins), chain_skeleton(n, n, n, **common)

@@ -39,10 +39,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..distribution import Distribution
-from ..errors import DataError, GraphError, NotFittedError, QueryError, did_you_mean, short_repr, shorten
+from ..errors import DataError, GraphError, NetworkError, NotFittedError, QueryError, did_you_mean, short_repr, shorten
 from ..estimators.base import Estimator, check_alpha
 from .data import RelationalData
-from .grounding import _related, ground
+from .grounding import MAX_GROUND_VARIABLES, _related, ground
 from .model import Mechanism, Schema, Template, node_name, split_node_name
 from .skeleton import Skeleton
 
@@ -322,7 +322,7 @@ def _spillover_units(skeleton: Skeleton, entity: str, instance: str, t_entity: s
     return own, [i for i in skeleton.instances[t_entity] if i in nbr_set]
 
 
-def _answer(template: Template, skeleton: Skeleton, query):
+def _answer(template: Template, skeleton: Skeleton, query, net=None):
     if not isinstance(skeleton, Skeleton):
         raise QueryError(f"skeleton must be a Skeleton, got {type(skeleton).__name__}")
     if skeleton.schema != template.schema:
@@ -332,7 +332,10 @@ def _answer(template: Template, skeleton: Skeleton, query):
         e, i, a = _resolve(query.target, skeleton, "target")
         do = _assignment(query.do, skeleton, "do")
         given = _assignment(query.given, skeleton, "given")
-        return ground(template, skeleton).query(node_name(e, i, a), do=do, given=given)
+        target = node_name(e, i, a)
+        if net is None:  # only the part of the ground network the query needs
+            net = ground(template, skeleton, keep=[target, *do, *given])
+        return net.query(target, do=do, given=given)
     if isinstance(query, PopulationQuery):
         _entity_attribute(schema, query.entity, query.attribute, "population query")
         if query.policy is not None and not isinstance(query.policy, Policy):
@@ -347,15 +350,10 @@ def _answer(template: Template, skeleton: Skeleton, query):
         if query.policy is not None:
             p = query.policy
             do = {node_name(p.entity, u, p.attribute): p.state for u in p.units(skeleton)}
-        net = ground(template, skeleton)
+        net = ground(template, skeleton) if net is None else net
         states = schema.entities[query.entity][query.attribute]
-        total = np.zeros(len(states))
-        for i in ids:
-            v = node_name(query.entity, i, query.attribute)
-            if v in do:
-                total[states.index(do[v])] += 1.0
-            else:
-                total += net.query(v, do=do).probs
+        targets = [node_name(query.entity, i, query.attribute) for i in ids]
+        total = np.sum(net.marginals(targets, do), axis=0)
         label = f"{query.entity}.{query.attribute}"
         policy = "" if query.policy is None else f" | do({query.policy.entity}.{query.policy.attribute}={query.policy.state} on {len(do)})"
         return Distribution([label], [states], total / len(ids), description=f"average P({label}{policy})")
@@ -368,7 +366,8 @@ def _answer(template: Template, skeleton: Skeleton, query):
         off = _state(schema, te, ta, query.untreated, "untreated state")
         own, nbrs = _spillover_units(skeleton, e, i, te)
         target = node_name(e, i, a)
-        net = ground(template, skeleton)
+        if net is None:
+            net = ground(template, skeleton, keep=[target] + [node_name(te, u, ta) for u in own + nbrs])
 
         def p(own_state: str, nbr_state: str) -> float:
             do = {node_name(te, u, ta): own_state for u in own}
@@ -387,12 +386,13 @@ def _answer(template: Template, skeleton: Skeleton, query):
     )
 
 
-def exact_answer(template: Template, skeleton: Skeleton, query):
+def exact_answer(template: Template, skeleton: Skeleton, query, network=None):
     """The exact answer to a relational query under the true ``template`` on ``skeleton``.
 
     The template is grounded on the skeleton and the ground network's exact
     engine answers (it keeps only the ancestors of the target in the
-    mutilated graph).
+    mutilated graph). ``network``, if given, is that ground network already
+    built (``ground(template, skeleton)``), for many queries on one skeleton.
 
     Returns
     -------
@@ -416,7 +416,7 @@ def exact_answer(template: Template, skeleton: Skeleton, query):
     """
     if not isinstance(template, Template):
         raise QueryError(f"template must be a Template, got {type(template).__name__}")
-    return _answer(template, skeleton, query)
+    return _answer(template, skeleton, query, network)
 
 
 # ---------------------------------------------------------------- estimators
@@ -560,7 +560,24 @@ class RelationalPluginEstimator(Estimator):
             As :func:`exact_answer`.
         """
         self._check_fitted()
-        return _answer(self.template_, self.skeleton_ if skeleton is None else skeleton, query)
+        skeleton = self.skeleton_ if skeleton is None else skeleton
+        # the ground network of the last skeleton asked about is kept for the next query on it
+        # the ground network of the last skeleton asked about is kept for the next query on it; a skeleton
+        # too large to ground whole is grounded per query, only as far as the query needs
+        cached = getattr(self, "_grounded", None)
+        if cached is None or cached[0] is not self.template_ or cached[1] is not skeleton:
+            if not isinstance(skeleton, Skeleton) or skeleton.schema != self.template_.schema:
+                return _answer(self.template_, skeleton, query)  # the refusal, with its message
+            size = sum(len(skeleton.instances[t]) * len(a) for t, a in skeleton.schema.entities.items())
+            whole = None
+            if size <= MAX_GROUND_VARIABLES:
+                try:
+                    whole = ground(self.template_, skeleton)
+                except NetworkError:  # ground CPTs too large in all: ground per query
+                    whole = None
+            cached = (self.template_, skeleton, whole)
+            self._grounded = cached
+        return _answer(self.template_, skeleton, query, cached[2])
 
     def effect(self, *args, **kwargs):  # the single-table contrast does not apply here
         raise QueryError(f"{type(self).__name__} answers relational queries; use a SpilloverQuery for contrasts")

@@ -32,7 +32,10 @@ The layout (every name is read as text, numbers where numbers belong)::
             - [0.1, 0.9]
 
 ``parents`` and ``aggregates`` may be left out (none); ``direction``
-defaults to ``along``. Every attribute needs a mechanism.
+defaults to ``along``. Every attribute needs a mechanism. A *structure
+file*, read with ``cpts=False`` (what the relational estimators' ``fit``
+and ``intervgnn relational-fit`` need), may leave every ``cpt`` out: the
+mechanism then gets uniform rows, which fitting replaces.
 """
 
 from __future__ import annotations
@@ -40,6 +43,7 @@ from __future__ import annotations
 import math
 import os
 
+import numpy as np
 import yaml
 
 from .._io import atomic_open
@@ -93,8 +97,11 @@ def _numbers(value, where: str, source: str, depth: int = 0):
     return _number(value, where, source)
 
 
-def parse_template(doc, source: str = "<template>") -> Template:
+def parse_template(doc, source: str = "<template>", cpts: bool = True) -> Template:
     """A :class:`Template` from the document of a template file (see the module notes).
+
+    With ``cpts=False`` a mechanism without ``cpt`` gets uniform rows (a
+    structure file, for fitting).
 
     Raises
     ------
@@ -122,7 +129,7 @@ def parse_template(doc, source: str = "<template>") -> Template:
                 where = f"the mechanism of '{t}.{a}'"
                 spec = _mapping(spec, where, source)
                 _keys(spec, _MECH, where, source)
-                if "cpt" not in spec:
+                if "cpt" not in spec and cpts:
                     raise GraphError(f"{source}: {where} has no 'cpt'")
                 parents = spec.get("parents") or []
                 if not isinstance(parents, list):
@@ -144,6 +151,14 @@ def parse_template(doc, source: str = "<template>") -> Template:
                     built.append(
                         Aggregate(g["relationship"], g["attribute"], g["state"], g["kind"], edges, g.get("direction") or ALONG)
                     )
+                if "cpt" not in spec:  # a structure file: uniform rows of the mechanism's shape
+                    schema.check_attribute(t, a)
+                    for p in parents:
+                        schema.check_attribute(t, p)
+                    shape = [len(schema.states(t, p)) for p in parents] + [g.num_bins for g in built]
+                    k = len(schema.states(t, a))
+                    mechanisms.append(Mechanism(t, a, _uniform(shape, k), parents, built))
+                    continue
                 cpt = spec["cpt"]
                 if not isinstance(cpt, list):
                     raise NetworkError(f"{source}: {where}: 'cpt' must be a list of rows, got {short_repr(cpt)}")
@@ -156,7 +171,14 @@ def parse_template(doc, source: str = "<template>") -> Template:
         raise type(exc)(f"{source}: {text}") from None
 
 
-def read_template(path: str | os.PathLike) -> Template:
+def _uniform(shape: list[int], k: int) -> np.ndarray:
+    size = math.prod(shape) * k
+    if size > 10_000_000:
+        raise NetworkError(f"the mechanism's CPT would have {size:,} entries, more than the limit of 10,000,000")
+    return np.full(shape + [k], 1.0 / k)
+
+
+def read_template(path: str | os.PathLike, cpts: bool = True) -> Template:
     """Read a schema and template from a YAML file (see the module notes).
 
     Raises
@@ -169,7 +191,7 @@ def read_template(path: str | os.PathLike) -> Template:
         A bad CPT.
     """
     source = os.fspath(path)
-    return parse_template(read_yaml_file(source, GraphError, names=True), source)
+    return parse_template(read_yaml_file(source, GraphError, names=True), source, cpts)
 
 
 def _plain(x):

@@ -29,7 +29,13 @@ MAX_GROUND_VARIABLES = 100_000
 
 
 def _related(skeleton: Skeleton) -> dict[tuple[str, str], dict[str, list[str]]]:
-    """``(relationship, direction) -> instance id -> related ids``, in the skeleton's instance order."""
+    """``(relationship, direction) -> instance id -> related ids``, in the skeleton's instance order.
+
+    Built once per skeleton and kept on it (a skeleton is not changed after it is made).
+    """
+    cached = skeleton.__dict__.get("_related_ids")
+    if cached is not None:
+        return cached
     schema = skeleton.schema
     out = {}
     for r, rel in schema.relationships.items():
@@ -46,11 +52,55 @@ def _related(skeleton: Skeleton) -> dict[tuple[str, str], dict[str, list[str]]]:
             ids.sort(key=src_pos.__getitem__)
         out[(r, "along")] = along
         out[(r, "against")] = against
+    skeleton.__dict__["_related_ids"] = out
     return out
 
 
-def ground(template: Template, skeleton: Skeleton, name: str = "ground") -> CausalNetwork:
-    """The ground causal network of ``template`` on ``skeleton``.
+def ancestors(template: Template, skeleton: Skeleton, variables) -> list[tuple[str, str, str]]:
+    """The ``(entity, instance, attribute)`` of ``variables`` (ground names) and of all their ground ancestors.
+
+    In the skeleton's order (entity types, then instances, then attributes,
+    as :func:`ground` lays them out). Unknown names raise QueryError.
+    """
+    from .model import split_node_name
+
+    schema = template.schema
+    related = _related(skeleton)
+    known = {t: set(ids) for t, ids in skeleton.instances.items()}
+    todo = []
+    for v in variables:
+        e, i, a = split_node_name(v, schema)
+        if i not in known[e]:
+            from ..errors import QueryError
+
+            raise QueryError(f"'{e}' has no instance '{i}' in this skeleton (in '{v}')")
+        todo.append((e, i, a))
+    seen = set(todo)
+    while todo:
+        t, i, a = todo.pop()
+        m = template.mechanisms[(t, a)]
+        found = [(t, i, p) for p in m.parents]
+        for g in m.aggregates:
+            other = g.related_entity(schema)
+            found += [(other, j, g.attribute) for j in related[(g.relationship, g.direction)][i]]
+        for node in found:
+            if node not in seen:
+                seen.add(node)
+                todo.append(node)
+    pos = {t: {i: k for k, i in enumerate(ids)} for t, ids in skeleton.instances.items()} if len(seen) > 64 else None
+    types = list(schema.entities)
+    attrs = {t: list(schema.entities[t]) for t in types}
+
+    def order(node):
+        t, i, a = node
+        k = pos[t][i] if pos is not None else skeleton.instances[t].index(i)
+        return types.index(t), k, attrs[t].index(a)
+
+    return sorted(seen, key=order)
+
+
+def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=None) -> CausalNetwork:
+    """The ground causal network of ``template`` on ``skeleton`` (or the part a query needs).
 
     Parameters
     ----------
@@ -59,6 +109,11 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground") -> Caus
         Over the same schema as the template.
     name : str, default ``"ground"``
         The network's name.
+    keep : iterable of str, optional
+        Ground names; when given, only these variables and their ancestors
+        are grounded (what an exact query on them needs: the rest of the
+        ground network cannot change their distribution), so that a query
+        on one unit of a skeleton of a million instances stays small.
 
     Returns
     -------
@@ -85,7 +140,14 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground") -> Caus
     schema = template.schema
     if skeleton.schema != schema:
         raise GraphError("the skeleton is over another schema than the template; build both from one schema")
-    n_vars = sum(len(skeleton.instances[t]) * len(attrs) for t, attrs in schema.entities.items())
+    if keep is not None:
+        if isinstance(keep, str):
+            keep = [keep]
+        nodes = ancestors(template, skeleton, keep)
+        n_vars = len(nodes)
+    else:
+        nodes = None
+        n_vars = sum(len(skeleton.instances[t]) * len(attrs) for t, attrs in schema.entities.items())
     if n_vars > MAX_GROUND_VARIABLES:
         raise NetworkError(
             f"the ground network would have {n_vars:,} variables, more than the limit of {MAX_GROUND_VARIABLES:,}"
@@ -95,22 +157,22 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground") -> Caus
     parents: dict[str, list[str]] = {}
     plan: dict[str, tuple] = {}  # variable -> (mechanism, own parent positions, per-aggregate positions)
     total = 0
-    for t, attrs in schema.entities.items():
-        for i in skeleton.instances[t]:
-            for a in attrs:
-                v = node_name(t, i, a)
-                states[v] = attrs[a]
-                m = template.mechanisms[(t, a)]
-                pos: dict[str, int] = {}
-                for p in m.parents:
-                    pos.setdefault(node_name(t, i, p), len(pos))
-                agg_pos = []
-                for g in m.aggregates:
-                    other = g.related_entity(schema)
-                    ids = related[(g.relationship, g.direction)][i]
-                    agg_pos.append([pos.setdefault(node_name(other, j, g.attribute), len(pos)) for j in ids])
-                parents[v] = list(pos)
-                plan[v] = (m, [pos[node_name(t, i, p)] for p in m.parents], agg_pos)
+    if nodes is None:
+        nodes = ((t, i, a) for t, attrs in schema.entities.items() for i in skeleton.instances[t] for a in attrs)
+    for t, i, a in nodes:
+        v = node_name(t, i, a)
+        states[v] = schema.entities[t][a]
+        m = template.mechanisms[(t, a)]
+        pos: dict[str, int] = {}
+        for p in m.parents:
+            pos.setdefault(node_name(t, i, p), len(pos))
+        agg_pos = []
+        for g in m.aggregates:
+            other = g.related_entity(schema)
+            ids = related[(g.relationship, g.direction)][i]
+            agg_pos.append([pos.setdefault(node_name(other, j, g.attribute), len(pos)) for j in ids])
+        parents[v] = list(pos)
+        plan[v] = (m, [pos[node_name(t, i, p)] for p in m.parents], agg_pos)
     for v, ps in parents.items():
         size = math.prod(len(states[p]) for p in ps) * len(states[v])  # Python integers: no overflow
         if size > MAX_CPT_ENTRIES:

@@ -23,9 +23,9 @@ from .model import _WORD, Schema
 __all__ = ["Skeleton", "read_skeleton", "MAX_INSTANCES", "MAX_LINKS"]
 
 #: the most instances of all types a skeleton may have
-MAX_INSTANCES = 100_000
+MAX_INSTANCES = 2_000_000
 #: the most links of all relationships a skeleton may have
-MAX_LINKS = 1_000_000
+MAX_LINKS = 10_000_000
 
 
 def refuse_unknown_keys(given: Mapping, known: Mapping, what: str, kind: str, listed: str) -> None:
