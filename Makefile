@@ -40,6 +40,11 @@ bench: $(VENV)/.test
 	$(PY) experiments/bench/hidden_accuracy.py --out experiments/results/hidden_accuracy.json
 	$(VENV)/bin/intervgnn run configs/random.yaml --output experiments/results/random
 	$(PY) experiments/bench/neural_ratios.py experiments/results/random/summary.csv --goals random
+	$(VENV)/bin/intervgnn run configs/relational.yaml --output experiments/results/relational
+	$(PY) experiments/bench/relational_ratios.py experiments/results/relational/summary.csv
+	$(VENV)/bin/intervgnn run configs/relational-bins.yaml --output experiments/results/relational-bins
+	$(PY) experiments/bench/relational_ratios.py experiments/results/relational-bins/summary.csv --bins
+	$(PY) experiments/bench/relational_scale.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info

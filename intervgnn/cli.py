@@ -232,6 +232,10 @@ def _run_sweep(args) -> int:
     cfg = load_config(args.config)
     if args.output:
         cfg = dataclasses.replace(cfg, output=args.output)
+    from .harness.relational import RelationalConfig
+
+    if isinstance(cfg, RelationalConfig):
+        return _run_relational(cfg, args)
     if args.rows:
         extra = [r for r in args.rows if r not in cfg.rows]
         if extra:
@@ -250,6 +254,23 @@ def _run_sweep(args) -> int:
     metric = "tv" if "tv" in cfg.metrics else cfg.metrics[0]
     print()
     print(markdown_tables(cfg, summary, metric))
+    for label, path in paths.items():
+        print(f"{label:<12} {path}")
+    print()
+    print(CAUTION)
+    return 0
+
+
+def _run_relational(cfg, args) -> int:
+    from .harness.relational import markdown_relational, run_relational, summarise_relational, write_relational
+
+    if args.rows or (args.executor and args.executor != "local"):
+        raise ConfigError("a relational sweep has no --rows and runs on the local executor only")
+    records = run_relational(cfg, workers=args.workers, resume=args.resume, log=(lambda *a: None) if args.quiet else print)
+    rows = summarise_relational(cfg, records)
+    paths = write_relational(cfg, rows)
+    print()
+    print(markdown_relational(cfg, rows))
     for label, path in paths.items():
         print(f"{label:<12} {path}")
     print()

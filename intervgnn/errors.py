@@ -15,6 +15,7 @@ __all__ = [
     "GraphError",
     "UnknownVariableError",
     "NetworkError",
+    "ExactTooLarge",
     "UnknownNetworkError",
     "BIFParseError",
     "DataError",
@@ -45,6 +46,10 @@ class UnknownVariableError(GraphError):
 
 class NetworkError(IntervgnnError, ValueError):
     """A Bayesian network's states or CPTs are invalid."""
+
+
+class ExactTooLarge(NetworkError):
+    """Exact inference would need an intermediate table beyond the bound (the network is too densely connected)."""
 
 
 class UnknownNetworkError(IntervgnnError, ValueError):

@@ -126,3 +126,14 @@ def test_marginals_equal_one_query_per_target_under_one_intervention():
     assert net.marginals([], do) == []
     with pytest.raises(QueryError, match="unknown"):
         net.marginals(["nope"], do)
+
+
+def test_exact_inference_refuses_a_table_beyond_its_bound(monkeypatch):
+    # the bound is checked while the elimination plan is made, before any table is built
+    import intervgnn.bn.exact as exact
+    from intervgnn import ExactTooLarge
+
+    net = load_network("alarm")
+    monkeypatch.setattr(exact, "MAX_FACTOR_ENTRIES", 8)
+    with pytest.raises(ExactTooLarge, match=r"exact inference would build a table of [\d,]+ entries .* more than the limit of 8"):
+        net.query("BP")

@@ -96,7 +96,7 @@ def test_max_degree_caps_every_instance():
 
 
 def test_generator_argument_errors():
-    with pytest.raises(DataError, match=r"bipartite skeleton: hives must be a whole number from 1 to 100,000, got 0"):
+    with pytest.raises(DataError, match=r"bipartite skeleton: hives must be a whole number from 1 to 2,000,000, got 0"):
         bipartite_skeleton(hives=0, orchards=3)
     with pytest.raises(DataError, match=r"bipartite skeleton: orchards must be a whole number .* got True"):
         bipartite_skeleton(hives=3, orchards=True)
@@ -116,10 +116,10 @@ def test_generator_argument_errors():
         peer_skeleton(keepers=5, seed=-2)
     with pytest.raises(DataError, match=r"max_degree must be a whole number from 1 to .* got 0"):
         peer_skeleton(keepers=5, max_degree=0)
-    with pytest.raises(DataError, match=r"chain skeleton: 150,000 instances in all, more than the limit of 100,000"):
-        chain_skeleton(nurseries=50_000, groves=50_000, markets=50_000)
-    with pytest.raises(DataError, match=r"about 2,000,000 links, more than the limit of 1,000,000"):
-        bipartite_skeleton(hives=50_000, orchards=1000, degree=2000)
+    with pytest.raises(DataError, match=r"chain skeleton: 3,000,000 instances in all, more than the limit of 2,000,000"):
+        chain_skeleton(nurseries=1_000_000, groves=1_000_000, markets=1_000_000)
+    with pytest.raises(DataError, match=r"about 20,000,000 links, more than the limit of 10,000,000"):
+        bipartite_skeleton(hives=50_000, orchards=10_000, degree=2000)
 
 
 def test_template_argument_errors():
@@ -164,7 +164,7 @@ def test_spec_round_trip():
         ("relational:peer,instances=ten", r"'instances' must be a whole number, got 'ten'"),
         ("relational:peer,degree=lots", r"'degree' must be a number, got 'lots'"),
         ("relational:peer,degree=inf", r"degree must be a number from 0 to .* got inf"),
-        ("relational:peer,instances=0", r"instances must be a whole number from 1 to 100,000, got 0"),
+        ("relational:peer,instances=0", r"instances must be a whole number from 1 to 2,000,000, got 0"),
         ("relational:peer,distribution=flat", r"distribution must be one of: poisson, uniform, heavy-tailed; got 'flat'"),
         ("relational:peer,max_degree=1.5", r"'max_degree' must be a whole number, got '1.5'"),
         ("relational:peer,seed=" + "9" * 30, r"seed must be a whole number from 0 to 9,223,372,036,854,775,807, got 9{30}$"),

@@ -13,16 +13,20 @@ P(T | do(X = x), ...) for every state x at once.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import ZeroEvidenceError
+from ..errors import ExactTooLarge, ZeroEvidenceError
 from ..graph import CausalGraph
 from ..query import check_answer_size
 
-__all__ = ["ExactEngine"]
+__all__ = ["ExactEngine", "MAX_FACTOR_ENTRIES"]
+
+#: the largest intermediate table variable elimination may build (2^26 entries, 512 MiB of float64)
+MAX_FACTOR_ENTRIES = 2**26
 
 
 @dataclass(frozen=True)
@@ -131,11 +135,17 @@ class ExactEngine:
             for var in sorted(eliminate):
                 involved = [s for s, sub in live.items() if var in sub]
                 union = set().union(*(live[s] for s in involved)) - {var}
-                size = int(np.prod([card_of[u] for u in union])) if union else 1
+                size = math.prod(card_of[u] for u in union)  # Python integers: no overflow
                 cand = (size, len(union), var)
                 if best is None or cand < best[0]:
                     best = (cand, var, involved, union)
             _, var, involved, union = best
+            work = best[0][0] * card_of[var]  # the table the contraction runs over
+            if work > MAX_FACTOR_ENTRIES:
+                raise ExactTooLarge(
+                    f"exact inference would build a table of {work:,} entries (over {len(union) + 1} variables), more "
+                    f"than the limit of {MAX_FACTOR_ENTRIES:,}: the query's ancestors are too densely connected"
+                )
             out = tuple(sorted(union))
             steps.append((tuple(involved), _local(tuple(live[s] for s in involved), out)))
             for s in involved:

@@ -406,8 +406,10 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
     return cfg
 
 
-def load_config(path: str | os.PathLike) -> ExperimentConfig:
-    """Read and validate a config file.
+def load_config(path: str | os.PathLike):
+    """Read and validate a config file (an :class:`ExperimentConfig`, or a
+    :class:`~intervgnn.harness.relational.RelationalConfig` for a document
+    with a ``relational`` key).
 
     Raises
     ------
@@ -435,4 +437,8 @@ def load_config(path: str | os.PathLike) -> ExperimentConfig:
         doc = load_yaml(text)
     except yaml.YAMLError as exc:
         raise ConfigError(yaml_problem(source, exc)) from None
+    if isinstance(doc, Mapping) and "relational" in doc:  # a relational sweep (intervgnn.harness.relational)
+        from .relational import parse_relational_config
+
+        return parse_relational_config(doc, source)
     return parse_config(doc, source)

@@ -333,9 +333,14 @@ def _answer(template: Template, skeleton: Skeleton, query, net=None):
         do = _assignment(query.do, skeleton, "do")
         given = _assignment(query.given, skeleton, "given")
         target = node_name(e, i, a)
-        if net is None:  # only the part of the ground network the query needs
-            net = ground(template, skeleton, keep=[target, *do, *given])
-        return net.query(target, do=do, given=given)
+        try:
+            if net is None:  # only the part of the ground network the query needs
+                net = ground(template, skeleton, keep=[target, *do, *given])
+            return net.query(target, do=do, given=given)
+        except NetworkError as exc:  # ground CPTs or elimination tables too large: Monte Carlo
+            if given:
+                raise QueryError(f"{exc}; a Monte Carlo answer with evidence (given) is not supported") from None
+            return _mc_unit(template, skeleton, target, do, str(exc))
     if isinstance(query, PopulationQuery):
         _entity_attribute(schema, query.entity, query.attribute, "population query")
         if query.policy is not None and not isinstance(query.policy, Policy):
@@ -350,13 +355,22 @@ def _answer(template: Template, skeleton: Skeleton, query, net=None):
         if query.policy is not None:
             p = query.policy
             do = {node_name(p.entity, u, p.attribute): p.state for u in p.units(skeleton)}
-        net = ground(template, skeleton) if net is None else net
         states = schema.entities[query.entity][query.attribute]
         targets = [node_name(query.entity, i, query.attribute) for i in ids]
-        total = np.sum(net.marginals(targets, do), axis=0)
         label = f"{query.entity}.{query.attribute}"
         policy = "" if query.policy is None else f" | do({query.policy.entity}.{query.policy.attribute}={query.policy.state} on {len(do)})"
-        return Distribution([label], [states], total / len(ids), description=f"average P({label}{policy})")
+        description = f"average P({label}{policy})"
+        try:
+            net = ground(template, skeleton) if net is None else net
+            total = np.sum(net.marginals(targets, do), axis=0) / len(ids)
+        except NetworkError as exc:
+            draws = MC_POPULATION_DRAWS
+            data = _mc_draws(template, skeleton, do, draws)
+            col = list(schema.entities[query.entity]).index(query.attribute)
+            codes = data.values[query.entity][:, :, col]
+            total = np.bincount(codes.reshape(-1), minlength=len(states)) / codes.size
+            description += f" (Monte Carlo, {draws:,} draws of the skeleton: {exc})"
+        return Distribution([label], [states], total, description=description)
     if isinstance(query, SpilloverQuery):
         e, i, a = _resolve(query.outcome, skeleton, "outcome")
         state = _state(schema, e, a, query.state, "outcome state")
@@ -366,15 +380,23 @@ def _answer(template: Template, skeleton: Skeleton, query, net=None):
         off = _state(schema, te, ta, query.untreated, "untreated state")
         own, nbrs = _spillover_units(skeleton, e, i, te)
         target = node_name(e, i, a)
-        if net is None:
-            net = ground(template, skeleton, keep=[target] + [node_name(te, u, ta) for u in own + nbrs])
+        try:
+            if net is None:
+                net = ground(template, skeleton, keep=[target] + [node_name(te, u, ta) for u in own + nbrs])
+        except NetworkError:
+            net = None  # Monte Carlo below
 
         def p(own_state: str, nbr_state: str) -> float:
             do = {node_name(te, u, ta): own_state for u in own}
             do.update({node_name(te, u, ta): nbr_state for u in nbrs})
             if target in do:
                 return float(do[target] == state)
-            return net.query(target, do=do)[state]
+            if net is not None:
+                try:
+                    return net.query(target, do=do)[state]
+                except NetworkError:
+                    pass
+            return _mc_unit(template, skeleton, target, do, "")[state]
 
         base = p(off, off)
         return SpilloverEffects(
@@ -384,6 +406,46 @@ def _answer(template: Template, skeleton: Skeleton, query, net=None):
     raise QueryError(
         f"expected a UnitQuery, PopulationQuery or SpilloverQuery, got {type(query).__name__}"
     )
+
+
+#: draws of the whole skeleton for a Monte Carlo unit answer (standard error at most 0.5 / sqrt(draws) = 0.0025)
+MC_UNIT_DRAWS = 40_000
+#: draws of the whole skeleton for a Monte Carlo population answer (averaged over the instances as well)
+MC_POPULATION_DRAWS = 4_000
+#: seed of every Monte Carlo answer: the truth and every estimator draw with the same uniforms, so their
+#: answers differ only where their CPTs do (common random numbers)
+MC_SEED = 0
+#: the most values one batch of Monte Carlo draws holds
+_MC_BATCH_VALUES = 2**25
+
+
+def _mc_draws(template: Template, skeleton: Skeleton, do: Mapping[str, str], draws: int, seed: int = MC_SEED):
+    """Draws of the whole skeleton under ``do``, in batches that bound memory, concatenated."""
+    from .sampling import sample_data
+
+    values_per_draw = sum(len(skeleton.instances[t]) * len(a) for t, a in skeleton.schema.entities.items())
+    batch = max(1, min(draws, _MC_BATCH_VALUES // max(values_per_draw, 1)))
+    parts = []
+    for k, start in enumerate(range(0, draws, batch)):
+        parts.append(sample_data(template, skeleton, draws=min(batch, draws - start), seed=seed + k, do=do))
+    if len(parts) == 1:
+        return parts[0]
+    return RelationalData(skeleton, {t: np.concatenate([p.values[t] for p in parts]) for t in skeleton.instances})
+
+
+def _mc_unit(template: Template, skeleton: Skeleton, target: str, do: Mapping[str, str], why: str) -> Distribution:
+    """P(target | do) by Monte Carlo over whole draws of the skeleton (where exact inference is too large)."""
+    e, i, a = split_node_name(target, skeleton.schema)
+    states = skeleton.schema.entities[e][a]
+    draws = MC_UNIT_DRAWS
+    data = _mc_draws(template, skeleton, do, draws)
+    col = list(skeleton.schema.entities[e]).index(a)
+    codes = data.values[e][:, skeleton.instances[e].index(i), col]
+    probs = np.bincount(codes, minlength=len(states)) / draws
+    se = float(np.sqrt((probs * (1 - probs)).max() / draws))
+    do_text = ", ".join(f"{k}={v}" for k, v in do.items())
+    note = f"Monte Carlo, {draws:,} draws, standard error at most {se:.4f}" + (f": {why}" if why else "")
+    return Distribution([target], [states], probs, description=f"P({target}{' | do(' + do_text + ')' if do else ''}) ({note})")
 
 
 def exact_answer(template: Template, skeleton: Skeleton, query, network=None):

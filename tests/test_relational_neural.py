@@ -1,0 +1,196 @@
+"""The neural relational estimator: counted instance families, the ELBO on them, shrunk CPTs, answers and transfer."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import torch
+
+from intervgnn import DataError, NotFittedError
+from sklearn.base import clone
+from intervgnn.models.vgae import family_elbo
+from intervgnn.relational import (
+    Policy,
+    PopulationQuery,
+    RelationalData,
+    RelationalPluginEstimator,
+    SpilloverQuery,
+    UnitQuery,
+    exact_answer,
+    ground,
+    relational_benchmark,
+)
+from intervgnn.relational.neural import RelationalNeuralEstimator, _batch, count_families
+
+from .test_relational_estimate import _tiny, _tv
+
+
+@pytest.fixture(scope="module")
+def chain():
+    template, skeleton = relational_benchmark("chain", instances=12, degree=2, seed=0)
+    rows = ground(template, skeleton).sample(3_000, seed=1)
+    return template, skeleton, RelationalData.from_ground_rows(template, skeleton, rows)
+
+
+@pytest.fixture(scope="module")
+def fitted(chain):
+    template, _, data = chain
+    return RelationalNeuralEstimator(seed=0, steps=40).fit(data, template)
+
+
+# ---------------------------------------------------------------- sufficient statistics
+
+
+def test_counted_families_bin_to_the_plugins_counts(chain):
+    # the family configurations, binned by the template's aggregates, are exactly what the tied plug-in
+    # counts (the plug-in's own counts were checked by hand in test_relational_estimate.py)
+    template, _, data = chain
+    plug = RelationalPluginEstimator().fit(data, template)
+    est = RelationalNeuralEstimator(steps=1).fit(data, template)
+    for key, counts in plug.counts_.items():
+        np.testing.assert_array_equal(est.counts_[key], counts)
+    fams = count_families(data, template)
+    grove = fams[("grove", "Vigour")]
+    assert grove.count.sum() == 3_000 * len(data.skeleton.instances["grove"])
+    assert (grove.hits <= grove.degree).all()
+
+
+def test_family_elbo_on_counted_families_equals_the_sum_over_instances(chain):
+    # The ELBO decomposes over instance families (common practice, no source: the same factorisation as
+    # the single-table sufficient-statistics test): the count-weighted sum over distinct configurations
+    # must equal the sum over every instance and draw, one family each, to float tolerance.
+    template, _, data = chain
+    est = RelationalNeuralEstimator(steps=3, seed=1)
+    small = RelationalData(data.skeleton, {t: v[:40] for t, v in data.values.items()})
+    est.fit(small, template)
+    model = est.models_[0].eval()
+    keys, cards, edges, agg_node, offsets = est._lifted(template)
+    fams = count_families(small, template)
+
+    def batch_of(per_instance: bool):
+        node, state, weight, src, dst, attr, first = [], [], [], [], [], [], 0
+        for i, key in enumerate(keys):
+            m, fam = template.mechanisms[key], fams[key]
+            cfg, st = np.nonzero(fam.count > 0)
+            w = fam.count[cfg, st]
+            if per_instance:  # repeat each (configuration, state) once per instance-draw that has it
+                reps = w.astype(np.int64)
+                cfg, st, w = np.repeat(cfg, reps), np.repeat(st, reps), np.ones(int(reps.sum()))
+            e, a = est._mech_edges(m, i, fam.own[cfg], fam.hits[cfg], fam.degree[cfg], small.schema, keys,
+                                   agg_node, offsets)
+            node.append(np.full(cfg.size, i))
+            state.append(st)
+            weight.append(w)
+            src.append(e[0])
+            dst.append(e[1] + first)
+            attr.append(a)
+            first += cfg.size
+        node, state = np.concatenate(node), np.concatenate(state)
+        edges_ = np.stack([np.concatenate(src), np.concatenate(dst)])
+        return _batch(node, state, edges_, np.concatenate(attr), offsets), np.concatenate(weight)
+
+    with torch.no_grad():
+        counted, w1 = batch_of(False)
+        every, w2 = batch_of(True)
+        assert w2.size == 40 * sum(len(v) for v in data.skeleton.instances.values())
+        a = family_elbo(model, counted, torch.as_tensor(w1, dtype=torch.float32))
+        b = family_elbo(model, every, torch.as_tensor(w2, dtype=torch.float32))
+    assert float(a) == pytest.approx(float(b), rel=1e-5)
+
+
+# ---------------------------------------------------------------- answers
+
+
+def test_answers_approach_the_exact_ones_with_many_draws(chain, fitted):
+    # consistency (common practice, no source): with 3,000 draws of a 12-instance skeleton the shrunk
+    # counts approach the true CPTs, so unit, population and spill-over answers approach the exact ones
+    template, skeleton, _ = chain
+    unit = UnitQuery("market_3__Price", do={"grove_5__Vigour": "high"})
+    assert _tv(fitted.query(unit).probs, exact_answer(template, skeleton, unit).probs) < 0.03
+    pop = PopulationQuery("market", "Price", Policy("nursery", "Stock", "good"))
+    assert _tv(fitted.query(pop).probs, exact_answer(template, skeleton, pop).probs) < 0.03
+    spill = SpilloverQuery("grove_7__Vigour", "nursery", "Stock", "good", "poor", "high")
+    truth, est = exact_answer(template, skeleton, spill), fitted.query(spill)
+    assert abs(est.own - truth.own) < 0.05 and est.own_units == truth.own_units
+
+
+def test_transfer_to_an_unseen_skeleton(chain, fitted):
+    template, _, _ = chain
+    _, other = relational_benchmark("chain", instances=20, degree=3, seed=7, distribution="heavy-tailed")
+    pop = PopulationQuery("market", "Price", Policy("grove", "Vigour", "high", share=0.5, seed=1))
+    assert _tv(fitted.query(pop, skeleton=other).probs, exact_answer(template, other, pop).probs) < 0.04
+
+
+def test_the_decoder_earns_weight_only_where_it_helps(fitted):
+    shares = fitted.neural_share_
+    assert set(shares) == {("nursery", "Stock"), ("grove", "Vigour"), ("market", "Price")}
+    assert all(0.0 <= s <= 1.0 for s in shares.values())
+    for key, cpt in ((k, fitted.template_.mechanisms[k].cpt) for k in shares):
+        np.testing.assert_allclose(cpt.sum(-1), 1.0)
+
+
+def test_same_seed_same_model_and_other_seed_other_model(chain):
+    template, _, data = chain
+    small = RelationalData(data.skeleton, {t: v[:50] for t, v in data.values.items()})
+    a = RelationalNeuralEstimator(seed=3, steps=10).fit(small, template)
+    b = RelationalNeuralEstimator(seed=3, steps=10).fit(small, template)
+    c = RelationalNeuralEstimator(seed=4, steps=10).fit(small, template)
+    key = ("market", "Price")
+    np.testing.assert_array_equal(a.template_.mechanisms[key].cpt, b.template_.mechanisms[key].cpt)
+    assert not np.array_equal(a.template_.mechanisms[key].cpt, c.template_.mechanisms[key].cpt)
+
+
+def test_rows_the_data_never_reach_still_get_a_distribution():
+    template, _, data = _tiny()
+    est = RelationalNeuralEstimator(steps=5).fit(data.draw(0), template)
+    cpt = est.template_.mechanism("orchard", "Yield").cpt
+    assert cpt.shape == (2, 2) and np.isfinite(cpt).all()
+    np.testing.assert_allclose(cpt.sum(-1), 1.0)
+
+
+# ---------------------------------------------------------------- contract
+
+
+def test_estimator_contract_and_bad_settings():
+    template, _, data = _tiny()
+    est = RelationalNeuralEstimator(steps=3, hidden=8)
+    twin = clone(est)
+    assert twin.get_params() == est.get_params() and twin is not est
+    with pytest.raises(NotFittedError, match="not fitted yet"):
+        est.query(UnitQuery("orchard_a__Yield"))
+    assert est.fit(data, template) is est
+    assert {"template_", "counts_", "families_", "neural_share_", "models_", "train_results_", "skeleton_"} <= {
+        k for k in vars(est) if k.endswith("_")}
+    for setting, message in [
+        ({"steps": 0}, "steps must be a whole number from 1 to 1,000,000, got 0"),
+        ({"folds": 1}, "folds must be a whole number from 2 to 100, got 1"),
+        ({"dim": True}, "dim must be a whole number from 1 to 4,096, got True"),
+        ({"lr": float("nan")}, "lr must be a number, got nan"),
+        ({"lr": 0}, "lr must be above 0, got 0"),
+        ({"prior_counts": 1.5}, r"prior_counts must lie in \(0, 1\], got 1.5"),
+        ({"seed": -1}, "seed"),
+    ]:
+        with pytest.raises(DataError, match=message):
+            RelationalNeuralEstimator(**setting).fit(data, template)
+    with pytest.raises(DataError, match="fit expects RelationalData, got dict"):
+        RelationalNeuralEstimator().fit({}, template)
+    with pytest.raises(DataError, match="fit expects a Template, got str"):
+        RelationalNeuralEstimator().fit(data, "template")
+
+
+def test_fit_on_several_skeletons_counts_them_together():
+    template, one = relational_benchmark("chain", instances=10, degree=2, seed=0)
+    _, two = relational_benchmark("chain", instances=15, degree=3, seed=1)
+    from intervgnn.relational.sampling import sample_data
+
+    d1, d2 = sample_data(template, one, draws=20, seed=1), sample_data(template, two, draws=20, seed=2)
+    both = RelationalNeuralEstimator(steps=3).fit([d1, d2], template)
+    for key in template.mechanisms:
+        expected = (RelationalPluginEstimator().fit(d1, template).counts_[key]
+                    + RelationalPluginEstimator().fit(d2, template).counts_[key])
+        np.testing.assert_array_equal(both.counts_[key], expected)
+        fam = both.families_[key]
+        np.testing.assert_array_equal(fam.fold_count.sum(0), fam.count)
+    assert both.skeleton_ is one
+    with pytest.raises(DataError, match="non-empty list"):
+        RelationalNeuralEstimator().fit([], template)
