@@ -55,6 +55,8 @@ from .estimate import (
     exact_answer,
 )
 from .files import format_template, parse_template, read_template, write_template
+from .neural import RelationalNeuralEstimator
+from .sampling import sample_data
 from .grounding import MAX_GROUND_VARIABLES, ground
 from .model import Aggregate, Mechanism, Relationship, Schema, Template, node_name, split_node_name
 from .skeleton import MAX_INSTANCES, MAX_LINKS, Skeleton, read_skeleton
@@ -97,5 +99,7 @@ __all__ = [
     "exact_answer",
     "RelationalPluginEstimator",
     "UnlinkedPluginEstimator",
+    "RelationalNeuralEstimator",
+    "sample_data",
     "MAX_POPULATION_INSTANCES",
 ]
