@@ -12,7 +12,6 @@ from intervgnn.cli import CAUTION, main
 from intervgnn.relational import (
     PopulationQuery,
     Policy,
-    RelationalData,
     UnitQuery,
     exact_answer,
     read_template,

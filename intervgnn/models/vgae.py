@@ -96,7 +96,6 @@ class FamilyBatch:
     @classmethod
     def from_cells(cls, model: InterventionalVGAE, cells) -> FamilyBatch:
         """Lay out ``cells`` (:class:`~intervgnn.models.stats.FamilyCells`) for ``model``."""
-        t = model.num_values
         node, cfg, state = cells.node, cells.cfg, cells.state
         n_cells = int(node.size)
         enc = family_edges(cells.parents, cells.cards, node, cfg, 0)

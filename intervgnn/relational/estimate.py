@@ -484,28 +484,39 @@ def exact_answer(template: Template, skeleton: Skeleton, query, network=None):
 # ---------------------------------------------------------------- estimators
 
 
+def aggregate_counts(data: RelationalData, mech: Mechanism, g, related) -> tuple[np.ndarray, np.ndarray]:
+    """``hits [draws, n]`` and ``degree [n]`` of aggregate ``g`` for every instance of the mechanism's type.
+
+    ``hits``: related instances in the aggregate's state; ``degree``: related instances in all.
+    """
+    schema, skeleton = data.schema, data.skeleton
+    ids = skeleton.instances[mech.entity]
+    other = g.related_entity(schema)
+    other_attrs = list(schema.entities[other])
+    vals_other = data._values[other][:, :, other_attrs.index(g.attribute)]
+    hit = (vals_other == schema.entities[other][g.attribute].index(g.state)).astype(np.int64)
+    pos = {j: k for k, j in enumerate(skeleton.instances[other])}
+    rel = related[(g.relationship, g.direction)]
+    lists = [rel[i] for i in ids]
+    degree = np.fromiter((len(x) for x in lists), dtype=np.int64, count=len(ids))
+    src = np.repeat(np.arange(len(ids), dtype=np.int64), degree)
+    dst = np.fromiter((pos[j] for x in lists for j in x), dtype=np.int64, count=int(degree.sum()))
+    hits = np.zeros((hit.shape[0], len(ids)), dtype=np.int64)
+    if src.size:
+        np.add.at(hits, (slice(None), src), hit[:, dst])
+    return hits, degree
+
+
 def _count_mechanism(data: RelationalData, mech: Mechanism, aggregates, related) -> np.ndarray:
     """Counts of (own parents, aggregate bins, own state) over all instances and draws, CPT-shaped."""
-    schema, skeleton = data.schema, data.skeleton
+    schema = data.schema
     t = mech.entity
     attrs = list(schema.entities[t])
     vals = data._values[t]  # [draws, instances, attributes]
     codes = [vals[:, :, attrs.index(p)] for p in mech.parents]
     shape = [len(schema.entities[t][p]) for p in mech.parents]
-    ids = skeleton.instances[t]
     for g in aggregates:
-        other = g.related_entity(schema)
-        other_attrs = list(schema.entities[other])
-        vals_other = data._values[other][:, :, other_attrs.index(g.attribute)]
-        hit = (vals_other == schema.entities[other][g.attribute].index(g.state)).astype(np.int64)
-        pos = {j: k for k, j in enumerate(skeleton.instances[other])}
-        rel = related[(g.relationship, g.direction)]
-        src = np.array([k for k, i in enumerate(ids) for _ in rel[i]], dtype=np.int64)
-        dst = np.array([pos[j] for i in ids for j in rel[i]], dtype=np.int64)
-        count = np.zeros((vals.shape[0], len(ids)), dtype=np.int64)
-        if src.size:
-            np.add.at(count, (slice(None), src), hit[:, dst])
-        degree = np.bincount(src, minlength=len(ids))
+        count, degree = aggregate_counts(data, mech, g, related)
         bins = np.empty_like(count)
         for d in np.unique(degree):  # a loop over distinct degrees, not over rows
             cols = degree == d

@@ -19,7 +19,7 @@ import numpy as np
 from ..bn.network import MAX_CPT_ENTRIES, MAX_NETWORK_ENTRIES, CausalNetwork
 from ..errors import GraphError, NetworkError
 from ..graph import CausalGraph
-from .model import Template, find_cycle, node_name
+from .model import Schema, Template, find_cycle, node_name
 from .skeleton import Skeleton
 
 __all__ = ["ground", "MAX_GROUND_VARIABLES"]
@@ -99,6 +99,17 @@ def ancestors(template: Template, skeleton: Skeleton, variables) -> list[tuple[s
     return sorted(seen, key=order)
 
 
+def check_template_skeleton(template, skeleton) -> Schema:
+    """The schema of ``template`` after checking that ``skeleton`` is a :class:`Skeleton` over it (GraphError)."""
+    if not isinstance(template, Template):
+        raise GraphError(f"template must be a Template, got {type(template).__name__}")
+    if not isinstance(skeleton, Skeleton):
+        raise GraphError(f"skeleton must be a Skeleton, got {type(skeleton).__name__}")
+    if skeleton.schema != template.schema:
+        raise GraphError("the skeleton is over another schema than the template; build both from one schema")
+    return template.schema
+
+
 def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=None) -> CausalNetwork:
     """The ground causal network of ``template`` on ``skeleton`` (or the part a query needs).
 
@@ -133,13 +144,7 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=No
         :data:`~intervgnn.bn.network.MAX_NETWORK_ENTRIES` in all; refused
         before any table is built.
     """
-    if not isinstance(template, Template):
-        raise GraphError(f"template must be a Template, got {type(template).__name__}")
-    if not isinstance(skeleton, Skeleton):
-        raise GraphError(f"skeleton must be a Skeleton, got {type(skeleton).__name__}")
-    schema = template.schema
-    if skeleton.schema != schema:
-        raise GraphError("the skeleton is over another schema than the template; build both from one schema")
+    schema = check_template_skeleton(template, skeleton)
     if keep is not None:
         if isinstance(keep, str):
             keep = [keep]

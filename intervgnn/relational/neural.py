@@ -61,12 +61,12 @@ import torch
 from ..errors import DataError, short_repr
 from ..estimators.neural import _seed, torch_threads
 from ..models.answer import normal_points
-from ..models.shrinkage import Mixture, mixture_rows, mixture_weights
+from ..models.shrinkage import mixture_rows, mixture_weights
 from ..models.training import TrainResult, init_output_bias, train_vgae
 from ..models.vgae import FamilyBatch, InterventionalVGAE
 from ..query import check_seed
 from .data import RelationalData
-from .estimate import RelationalPluginEstimator
+from .estimate import RelationalPluginEstimator, aggregate_counts
 from .grounding import _related
 from .model import Aggregate, Mechanism, Template
 
@@ -103,26 +103,6 @@ class MechanismFamilies:
         return int(self.own.size)
 
 
-def _aggregate_counts(data: RelationalData, mech: Mechanism, g: Aggregate, related) -> tuple[np.ndarray, np.ndarray]:
-    """``hits [draws, n]`` and ``degree [n]`` of aggregate ``g`` for every instance of the mechanism's type."""
-    schema, skeleton = data.schema, data.skeleton
-    ids = skeleton.instances[mech.entity]
-    other = g.related_entity(schema)
-    other_attrs = list(schema.entities[other])
-    vals_other = data._values[other][:, :, other_attrs.index(g.attribute)]
-    hit = (vals_other == schema.entities[other][g.attribute].index(g.state)).astype(np.int64)
-    pos = {j: k for k, j in enumerate(skeleton.instances[other])}
-    rel = related[(g.relationship, g.direction)]
-    lists = [rel[i] for i in ids]
-    degree = np.fromiter((len(x) for x in lists), dtype=np.int64, count=len(ids))
-    src = np.repeat(np.arange(len(ids), dtype=np.int64), degree)
-    dst = np.fromiter((pos[j] for x in lists for j in x), dtype=np.int64, count=int(degree.sum()))
-    hits = np.zeros((hit.shape[0], len(ids)), dtype=np.int64)
-    if src.size:
-        np.add.at(hits, (slice(None), src), hit[:, dst])
-    return hits, degree
-
-
 def count_families(
     data: RelationalData, template: Template, folds: np.ndarray | None = None, num_folds: int = 1
 ) -> dict[tuple[str, str], MechanismFamilies]:
@@ -143,7 +123,7 @@ def count_families(
             own = own * len(schema.entities[t][p]) + vals[:, :, attrs.index(p)]
         cols = [own]
         for g in m.aggregates:
-            hits, degree = _aggregate_counts(data, m, g, related)
+            hits, degree = aggregate_counts(data, m, g, related)
             cols += [hits, np.broadcast_to(degree, (draws, n))]
         k = len(schema.entities[t][a])
         state = vals[:, :, attrs.index(a)].reshape(-1)

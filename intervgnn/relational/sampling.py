@@ -18,6 +18,7 @@ import numpy as np
 from ..errors import GraphError
 from ..query import check_seed
 from .data import RelationalData
+from .grounding import check_template_skeleton
 from .model import ALONG, Template
 from .skeleton import Skeleton
 
@@ -42,7 +43,6 @@ def link_arrays(skeleton: Skeleton) -> dict[str, tuple[np.ndarray, np.ndarray]]:
 
 def aggregate_edges(template: Template, skeleton: Skeleton, arrays=None):
     """Per mechanism and aggregate: ``(instance positions, related positions)``, one pair per related instance."""
-    schema = template.schema
     arrays = link_arrays(skeleton) if arrays is None else arrays
     out = {}
     for key, m in template.mechanisms.items():
@@ -78,13 +78,7 @@ def sample_data(template: Template, skeleton: Skeleton, draws: int = 1, seed=0, 
     """
     from ..errors import DataError
 
-    if not isinstance(template, Template):
-        raise GraphError(f"template must be a Template, got {type(template).__name__}")
-    if not isinstance(skeleton, Skeleton):
-        raise GraphError(f"skeleton must be a Skeleton, got {type(skeleton).__name__}")
-    schema = template.schema
-    if skeleton.schema != schema:
-        raise GraphError("the skeleton is over another schema than the template; build both from one schema")
+    schema = check_template_skeleton(template, skeleton)
     if isinstance(draws, bool) or not isinstance(draws, (int, np.integer)) or draws < 1:
         raise DataError(f"draws must be a positive whole number, got {draws!r}")
     rng = np.random.default_rng(check_seed(seed))
