@@ -728,3 +728,15 @@ def test_intervene_keys_masks_and_features():
             Intervene({("gauge", 0): 1}, enc)(h)
         with pytest.raises(LayerInputError, match="node type 'gauge' has no node count; set x or num_nodes for it"):
             drop_parent_edges(h, {"gauge": torch.zeros(1, dtype=torch.bool)})
+
+
+def test_bipartite_cut_also_cuts_the_edge_from_the_source_of_the_same_index():
+    # with two node sets, source k and target k are different nodes: k -> k is a parent edge, not a self-loop
+    torch.manual_seed(0)
+    conv = InterventionalConv((4, 3), 5)
+    x_s, x_t = torch.randn(3, 4), torch.randn(2, 3)
+    ei = torch.tensor([[0, 1, 2], [0, 0, 1]])
+    out = conv((x_s, x_t), ei, intervened=torch.tensor([True, False]))
+    alone = conv((x_s, x_t), ei[:, :0])
+    torch.testing.assert_close(out[0], alone[0])
+    assert not torch.allclose(out[1], alone[1])

@@ -77,6 +77,9 @@ def test_a_sweep_runs_resumes_and_splits_its_summary_by_kind(tmp_path, capsys):
     ({"relational": {"benchmarks": ["relational:peer"], "tranfser": []}}, "unknown key 'tranfser'"),
     ({"relational": {"benchmarks": ["relational:peer", "relational:peer"]}}, "lists one benchmark twice"),
     ({"relational": {"benchmarks": ["relational:peer"]}, "workers": 0}, "workers must be a whole number"),
+    ({"relational": {"benchmarks": ["relational:peer,seed=2"]}}, "leave seed= out of the spec"),
+    ({"relational": {"benchmarks": ["relational:peer", "relational:peer,degree=2"]}}, "lists one benchmark twice"),
+    ({"relational": {"benchmarks": ["relational:peer"], "seeds": [2**63 - 1]}}, "relational.seeds[0] must be a whole number"),
 ])
 def test_bad_configs_name_the_key(change, message):
     with pytest.raises(ConfigError, match=re.escape(message)):

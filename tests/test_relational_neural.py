@@ -194,3 +194,18 @@ def test_fit_on_several_skeletons_counts_them_together():
     assert both.skeleton_ is one
     with pytest.raises(DataError, match="non-empty list"):
         RelationalNeuralEstimator().fit([], template)
+
+
+def test_made_up_families_for_rows_the_data_never_reach_lie_in_their_bin():
+    # a share aggregate in tenths: narrow bins need large degrees; every bin gets a family inside it
+    from intervgnn.relational import Aggregate
+    from intervgnn.relational.neural import _representative
+
+    g = Aggregate("pollinates", "Treated", "yes", "share", np.linspace(0, 1, 11).round(6).tolist(), direction="against")
+    for b in range(g.num_bins):
+        hits, degree = _representative(g, b, typical=2, most=3)
+        assert g.bin_of_counts(degree)[hits] == b, b
+    c = Aggregate("pollinates", "Treated", "yes", "count", [0, 1, 5])
+    for b in range(c.num_bins):
+        hits, degree = _representative(c, b, typical=1, most=1)
+        assert c.bin_of_counts(degree)[hits] == b

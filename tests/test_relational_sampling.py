@@ -122,3 +122,21 @@ def test_monte_carlo_answers_where_exact_inference_is_too_large(monkeypatch):
     assert abs(mc_spill.own - exact_spill.own) < 0.015 and abs(mc_spill.both - exact_spill.both) < 0.015
     with pytest.raises(Exception, match="evidence"):
         exact_answer(template, skeleton, UnitQuery("keeper_25__Practice", given={"keeper_3__Training": "some"}))
+
+
+def test_an_intervened_variable_is_grounded_as_a_root_so_its_large_cpt_is_never_built():
+    # orchard a hears 24 hives (a ground CPT of 2^49 x 3 entries); a query on orchard b that sets a's yield needs
+    # none of it: a is grounded as a root (its mechanism is replaced), so the answer stays exact
+    from intervgnn.relational import UnitQuery, bipartite_template, exact_answer
+
+    template = bipartite_template(seed=0)
+    hives = [str(k) for k in range(1, 26)]
+    skeleton = Skeleton(template.schema, {"hive": hives, "orchard": ["a", "b"]},
+                        {"pollinates": [(h, "a") for h in hives[:24]] + [("25", "b")]})
+    with pytest.raises(Exception, match="too many related instances"):
+        ground(template, skeleton)
+    q = UnitQuery("orchard_b__Yield", do={"orchard_a__Yield": "high"})
+    answer = exact_answer(template, skeleton, q)
+    assert "Monte Carlo" not in (answer.description or "")
+    alone = ground(template, skeleton, keep=["orchard_b__Yield"]).query("orchard_b__Yield")
+    np.testing.assert_allclose(answer.probs, alone.probs, atol=1e-12)

@@ -18,14 +18,16 @@ __all__ = ["InterventionalConv"]
 _AGGRS = ("add", "sum", "mean", "max", "min")
 
 
-def cut_mask(edge_index: Tensor, intervened: Tensor) -> Tensor:
+def cut_mask(edge_index: Tensor, intervened: Tensor, self_loops: bool = True) -> Tensor:
     """``True`` for edges ``j -> i`` into an intervened node ``i`` (self-loops excluded).
 
     ``intervened`` is ``[N]`` or ``[B, N]``; the result is ``[E]`` or ``[B, E]``.
+    ``self_loops=False`` for a bipartite graph, whose sources and targets
+    are different nodes: there ``j == i`` is an ordinary edge and is cut.
     """
     src, dst = edge_index[0], edge_index[1]
     cut = intervened.index_select(-1, dst)
-    return cut & (src != dst)
+    return cut & (src != dst) if self_loops else cut
 
 
 def _scatter_rows(inputs: Tensor, index: Tensor, dim_size: int, aggr: str) -> Tensor:
@@ -228,7 +230,8 @@ class InterventionalConv(MessagePassing):
         else:
             check_mask(intervened, x_dst)
         edge_attr = self._check_edge_attr(edge_attr, x_dst, edge_index.size(1))
-        cut = None if intervened is None else cut_mask(edge_index, intervened)
+        # sources and targets are the same nodes (one tensor, or a pair of equal size): i -> i is a self-loop
+        cut = None if intervened is None else cut_mask(edge_index, intervened, self_loops=n_src == n_dst)
         # the message MLP's first layer on [x_j, x_i(, e)] is W_s x_j + W_t x_i (+ W_e e) + b: applied to
         # the nodes before the messages are gathered, not to every edge (E is usually larger than N)
         first = self.message_mlp.lins[0]

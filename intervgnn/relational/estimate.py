@@ -335,7 +335,7 @@ def _answer(template: Template, skeleton: Skeleton, query, net=None):
         target = node_name(e, i, a)
         try:
             if net is None:  # only the part of the ground network the query needs
-                net = ground(template, skeleton, keep=[target, *do, *given])
+                net = ground(template, skeleton, keep=[target, *do, *given], roots=do)
             return net.query(target, do=do, given=given)
         except NetworkError as exc:  # ground CPTs or elimination tables too large: Monte Carlo
             if given:
@@ -365,10 +365,8 @@ def _answer(template: Template, skeleton: Skeleton, query, net=None):
             total = np.sum(net.marginals(targets, do), axis=0) / len(ids)
         except NetworkError as exc:
             draws = MC_POPULATION_DRAWS
-            data = _mc_draws(template, skeleton, do, draws)
-            col = list(schema.entities[query.entity]).index(query.attribute)
-            codes = data.values[query.entity][:, :, col]
-            total = np.bincount(codes.reshape(-1), minlength=len(states)) / codes.size
+            counts = _mc_counts(template, skeleton, do, draws, query.entity, query.attribute)
+            total = counts / counts.sum()
             description += f" (Monte Carlo, {draws:,} draws of the skeleton: {exc})"
         return Distribution([label], [states], total, description=description)
     if isinstance(query, SpilloverQuery):
@@ -382,7 +380,8 @@ def _answer(template: Template, skeleton: Skeleton, query, net=None):
         target = node_name(e, i, a)
         try:
             if net is None:
-                net = ground(template, skeleton, keep=[target] + [node_name(te, u, ta) for u in own + nbrs])
+                treated = [node_name(te, u, ta) for u in own + nbrs]
+                net = ground(template, skeleton, keep=[target] + treated, roots=[v for v in treated if v != target])
         except NetworkError:
             net = None  # Monte Carlo below
 
@@ -419,18 +418,27 @@ MC_SEED = 0
 _MC_BATCH_VALUES = 2**25
 
 
-def _mc_draws(template: Template, skeleton: Skeleton, do: Mapping[str, str], draws: int, seed: int = MC_SEED):
-    """Draws of the whole skeleton under ``do``, in batches that bound memory, concatenated."""
+def _mc_counts(template: Template, skeleton: Skeleton, do: Mapping[str, str], draws: int, entity: str,
+               attribute: str, instance: int | None = None, seed: int = MC_SEED) -> np.ndarray:
+    """Counts of each state of ``entity.attribute`` over draws of the whole skeleton under ``do``.
+
+    Of one instance (its position ``instance``) or, with ``instance=None``,
+    of every instance pooled. Drawn in batches that bound memory; only the
+    counts of each batch are kept.
+    """
     from .sampling import sample_data
 
-    values_per_draw = sum(len(skeleton.instances[t]) * len(a) for t, a in skeleton.schema.entities.items())
+    schema = skeleton.schema
+    k = len(schema.entities[entity][attribute])
+    col = list(schema.entities[entity]).index(attribute)
+    values_per_draw = sum(len(skeleton.instances[t]) * len(a) for t, a in schema.entities.items())
     batch = max(1, min(draws, _MC_BATCH_VALUES // max(values_per_draw, 1)))
-    parts = []
-    for k, start in enumerate(range(0, draws, batch)):
-        parts.append(sample_data(template, skeleton, draws=min(batch, draws - start), seed=seed + k, do=do))
-    if len(parts) == 1:
-        return parts[0]
-    return RelationalData(skeleton, {t: np.concatenate([p.values[t] for p in parts]) for t in skeleton.instances})
+    counts = np.zeros(k)
+    for b, start in enumerate(range(0, draws, batch)):
+        data = sample_data(template, skeleton, draws=min(batch, draws - start), seed=seed + b, do=do)
+        codes = data.values[entity][:, :, col] if instance is None else data.values[entity][:, instance, col]
+        counts += np.bincount(codes.reshape(-1), minlength=k)
+    return counts
 
 
 def _mc_unit(template: Template, skeleton: Skeleton, target: str, do: Mapping[str, str], why: str) -> Distribution:
@@ -438,10 +446,7 @@ def _mc_unit(template: Template, skeleton: Skeleton, target: str, do: Mapping[st
     e, i, a = split_node_name(target, skeleton.schema)
     states = skeleton.schema.entities[e][a]
     draws = MC_UNIT_DRAWS
-    data = _mc_draws(template, skeleton, do, draws)
-    col = list(skeleton.schema.entities[e]).index(a)
-    codes = data.values[e][:, skeleton.instances[e].index(i), col]
-    probs = np.bincount(codes, minlength=len(states)) / draws
+    probs = _mc_counts(template, skeleton, do, draws, e, a, instance=skeleton.instances[e].index(i)) / draws
     se = float(np.sqrt((probs * (1 - probs)).max() / draws))
     do_text = ", ".join(f"{k}={v}" for k, v in do.items())
     note = f"Monte Carlo, {draws:,} draws, standard error at most {se:.4f}" + (f": {why}" if why else "")

@@ -56,8 +56,11 @@ def _related(skeleton: Skeleton) -> dict[tuple[str, str], dict[str, list[str]]]:
     return out
 
 
-def ancestors(template: Template, skeleton: Skeleton, variables) -> list[tuple[str, str, str]]:
+def ancestors(template: Template, skeleton: Skeleton, variables, stop=()) -> list[tuple[str, str, str]]:
     """The ``(entity, instance, attribute)`` of ``variables`` (ground names) and of all their ground ancestors.
+
+    The walk does not go past the ground names in ``stop`` (intervened
+    variables: their parents cannot reach anything through them).
 
     In the skeleton's order (entity types, then instances, then attributes,
     as :func:`ground` lays them out). Unknown names raise QueryError.
@@ -76,8 +79,11 @@ def ancestors(template: Template, skeleton: Skeleton, variables) -> list[tuple[s
             raise QueryError(f"'{e}' has no instance '{i}' in this skeleton (in '{v}')")
         todo.append((e, i, a))
     seen = set(todo)
+    stop = set(stop)
     while todo:
         t, i, a = todo.pop()
+        if node_name(t, i, a) in stop:
+            continue
         m = template.mechanisms[(t, a)]
         found = [(t, i, p) for p in m.parents]
         for g in m.aggregates:
@@ -110,7 +116,7 @@ def check_template_skeleton(template, skeleton) -> Schema:
     return template.schema
 
 
-def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=None) -> CausalNetwork:
+def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=None, roots=()) -> CausalNetwork:
     """The ground causal network of ``template`` on ``skeleton`` (or the part a query needs).
 
     Parameters
@@ -125,6 +131,11 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=No
         are grounded (what an exact query on them needs: the rest of the
         ground network cannot change their distribution), so that a query
         on one unit of a skeleton of a million instances stays small.
+    roots : iterable of str, optional
+        Ground names grounded without parents and with uniform CPTs: the
+        variables a query intervenes on, whose mechanisms the intervention
+        replaces (their ancestors are then not grounded either). The result
+        answers only queries that intervene on all of them.
 
     Returns
     -------
@@ -148,7 +159,7 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=No
     if keep is not None:
         if isinstance(keep, str):
             keep = [keep]
-        nodes = ancestors(template, skeleton, keep)
+        nodes = ancestors(template, skeleton, keep, stop=roots)
         n_vars = len(nodes)
     else:
         nodes = None
@@ -164,9 +175,13 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=No
     total = 0
     if nodes is None:
         nodes = ((t, i, a) for t, attrs in schema.entities.items() for i in skeleton.instances[t] for a in attrs)
+    roots = set(roots)
     for t, i, a in nodes:
         v = node_name(t, i, a)
         states[v] = schema.entities[t][a]
+        if v in roots:
+            parents[v], plan[v] = [], None
+            continue
         m = template.mechanisms[(t, a)]
         pos: dict[str, int] = {}
         for p in m.parents:
@@ -197,7 +212,10 @@ def ground(template: Template, skeleton: Skeleton, name: str = "ground", keep=No
             "the skeleton's links make the ground network cyclic: " + " -> ".join(cycle)
             + "; remove a link on this cycle or change the template's aggregates"
         )
-    cpts = {v: _ground_cpt(v, parents[v], states, *plan[v]) for v in parents}
+    cpts = {
+        v: np.full(len(states[v]), 1.0 / len(states[v])) if plan[v] is None else _ground_cpt(v, parents[v], states, *plan[v])
+        for v in parents
+    }
     graph = CausalGraph([(p, v) for v in parents for p in parents[v]], nodes=list(parents))
     return CausalNetwork(graph, states, cpts, name=name)
 

@@ -186,14 +186,21 @@ def _bins(mech: Mechanism, hits: np.ndarray, degree: np.ndarray) -> np.ndarray:
 
 
 def _representative(g: Aggregate, b: int, typical: int, most: int) -> tuple[int, int]:
-    """(hits, degree) of a made-up family in bin ``b`` of ``g``: the degree nearest ``typical`` that has one."""
-    for d in sorted(range(0, max(most, typical, max(g.edges) if g.kind == "count" else 0) + 2),
-                    key=lambda d: (abs(d - typical), d)):
-        lookup = g.bin_of_counts(d)
-        inside = np.flatnonzero(lookup == b)
+    """(hits, degree) of a made-up family in bin ``b`` of ``g``: the degree nearest ``typical`` that has one.
+
+    Every bin is met by some degree: a count bin from its lower edge on, a
+    share bin of width w once the degree reaches 1 / w (searched that far).
+    """
+    if g.kind == "count":
+        reach = int(max(g.edges)) + 1
+    else:
+        widths = np.diff(np.asarray(g.edges, dtype=float))
+        reach = int(np.ceil(1.0 / widths.min())) + 1
+    for d in sorted(range(0, max(most, typical, reach) + 2), key=lambda d: (abs(d - typical), d)):
+        inside = np.flatnonzero(g.bin_of_counts(d) == b)
         if inside.size:
             return int(inside[inside.size // 2]), d
-    return 0, 0  # unreachable for a valid aggregate: every bin is met by some (hits, degree)
+    raise ValueError(f"no family reaches bin {b} of the aggregate over '{g.attribute}'")  # a bug if it happens
 
 
 class RelationalNeuralEstimator(RelationalPluginEstimator):

@@ -13,6 +13,8 @@ instance's related instances.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+
 import numpy as np
 
 from ..errors import GraphError
@@ -68,6 +70,10 @@ def sample_data(template: Template, skeleton: Skeleton, draws: int = 1, seed=0, 
     where :func:`~intervgnn.relational.ground` would refuse the skeleton
     (too many instance attributes, or ground CPTs too large).
 
+    An intervened attribute is still drawn after its parents (then set),
+    so a skeleton cyclic only through edges the intervention cuts is refused
+    all the same.
+
     Raises
     ------
     GraphError
@@ -75,6 +81,9 @@ def sample_data(template: Template, skeleton: Skeleton, draws: int = 1, seed=0, 
         schema, or links that make the ground graph cyclic (no order exists).
     DataError
         A bad ``draws`` or ``seed``, or more than ``2**28`` values to draw.
+    QueryError
+        A ``do`` that is not a mapping of ground names to states, or names
+        an unknown instance, attribute or state.
     """
     from ..errors import DataError
 
@@ -160,6 +169,8 @@ def _fixed(template: Template, skeleton: Skeleton, do) -> dict:
 
     if not do:
         return {}
+    if not isinstance(do, Mapping):
+        raise QueryError(f"do must map ground names to states, got {type(do).__name__}")
     schema = template.schema
     pos = {}
     out: dict = {}
