@@ -9,12 +9,98 @@ import numpy as np
 
 from .errors import QueryError
 
-__all__ = ["Distribution"]
+__all__ = ["Distribution", "Interval", "EffectEstimate"]
 
 
 def _state_error(variable: str, state: object, states: Sequence[str]) -> QueryError:
     listed = ", ".join(sorted(states))
     return QueryError(f"unknown state '{state}' for variable '{variable}'; states are: {listed}")
+
+
+class Interval:
+    """A central interval for each probability of an answer, and the sample it came from.
+
+    Attributes
+    ----------
+    level : float
+        The central probability covered, e.g. 0.95.
+    lower, upper : numpy.ndarray
+        Bounds, the shape of the answer's ``probs``.
+    method : str
+        How the sample was drawn, e.g. ``"posterior"`` (CPT rows drawn from
+        their Dirichlet posterior, each set answered exactly).
+    samples : numpy.ndarray
+        ``[draws, *shape]``: the answers the bounds are quantiles of.
+    """
+
+    def __init__(self, level: float, samples, method: str):
+        samples = np.asarray(samples, dtype=np.float64)
+        self.level = float(level)
+        self.method = method
+        self.samples = samples
+        tail = (1.0 - self.level) / 2.0
+        self.lower, self.upper = np.quantile(samples, [tail, 1.0 - tail], axis=0)
+        for a in (self.samples, self.lower, self.upper):
+            a.setflags(write=False)
+
+    @property
+    def draws(self) -> int:
+        return int(self.samples.shape[0])
+
+    def to_dict(self) -> dict:
+        return {"level": self.level, "method": self.method, "draws": self.draws,
+                "lower": self.lower.tolist(), "upper": self.upper.tolist()}
+
+
+class EffectEstimate:
+    """A contrast P(Y=y | do(X=a)) - P(Y=y | do(X=b)) with its interval and the decision view.
+
+    Attributes
+    ----------
+    description : str
+    estimate : float
+        The contrast from the fitted estimator's answers.
+    interval : Interval
+        Over the contrast (``lower`` / ``upper`` are 0-d arrays).
+    positive : float
+        Share of the sample above zero (posterior or bootstrap probability
+        that the effect is positive).
+    """
+
+    def __init__(self, description: str, estimate: float, interval: Interval):
+        self.description = description
+        self.estimate = float(estimate)
+        self.interval = interval
+        self.positive = float((interval.samples > 0).mean())
+
+    @property
+    def lower(self) -> float:
+        return float(self.interval.lower)
+
+    @property
+    def upper(self) -> float:
+        return float(self.interval.upper)
+
+    @property
+    def excludes_zero(self) -> bool:
+        """True when the whole interval lies on one side of zero."""
+        return self.lower > 0 or self.upper < 0
+
+    def to_dict(self) -> dict:
+        iv = self.interval
+        return {"description": self.description, "estimate": self.estimate, "level": iv.level, "lower": self.lower,
+                "upper": self.upper, "method": iv.method, "draws": iv.draws, "probability_positive": self.positive,
+                "interval_excludes_zero": self.excludes_zero}
+
+    def __str__(self) -> str:
+        iv = self.interval
+        side = ("excludes zero" if self.excludes_zero else "includes zero")
+        return (f"{self.description}\n  estimate {self.estimate:+.4f}, {iv.level:.0%} interval {self.lower:+.4f} to "
+                f"{self.upper:+.4f} ({side})\n  probability the effect is positive: {self.positive:.3f} "
+                f"({iv.draws:,} {iv.method} draws; the diagram's assumptions are not in it)")
+
+    def __repr__(self) -> str:
+        return f"EffectEstimate({self.description!r}, estimate={self.estimate:.4f}, lower={self.lower:.4f}, upper={self.upper:.4f})"
 
 
 class Distribution:
@@ -36,6 +122,9 @@ class Distribution:
     identified : bool or None, optional
         False marks an answer to a query that is not identifiable from the
         data on the diagram: it rests on the model's assumptions alone.
+    interval : Interval, optional
+        An uncertainty statement for every probability (bounds the shape of
+        ``probs``); printed as one more column and kept by :meth:`to_dict`.
 
     Examples
     --------
@@ -56,6 +145,7 @@ class Distribution:
         probs,
         description: str | None = None,
         identified: bool | None = None,
+        interval: Interval | None = None,
     ):
         self.identified = identified
         self.variables: tuple[str, ...] = tuple(variables)
@@ -71,6 +161,9 @@ class Distribution:
         arr.setflags(write=False)
         self.probs: np.ndarray = arr
         self.description = description
+        if interval is not None and (not isinstance(interval, Interval) or interval.lower.shape != arr.shape):
+            raise QueryError(f"interval must be an Interval over probabilities of shape {arr.shape}")
+        self.interval = interval
 
     # ----------------------------------------------------------------- lookup
     def _code(self, axis: int, state: object) -> int:
@@ -131,6 +224,7 @@ class Distribution:
             "variables": list(self.variables),
             "states": [list(s) for s in self.states],
             "probs": self.probs.tolist(),
+            **({"interval": self.interval.to_dict()} if self.interval is not None else {}),
         }
 
     def format(self, digits: int = 4, max_rows: int | None = 50, show: int = 20) -> str:
@@ -153,6 +247,9 @@ class Distribution:
             if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
                 raise QueryError(f"{key} must be a whole number of at least 1, got {value!r}")
         header = list(self.variables) + ["probability"]
+        iv = self.interval
+        if iv is not None:
+            header.append(f"{iv.level:.0%} interval")
         total = int(self.probs.size)
         note = None
         if max_rows is not None and total > max_rows:
@@ -164,6 +261,7 @@ class Distribution:
             codes = np.unravel_index(top, self.probs.shape)
             rows = [
                 [self.states[i][int(codes[i][r])] for i in range(len(self.variables))] + [f"{flat[j]:.{digits}f}"]
+                + ([f"{iv.lower.reshape(-1)[j]:.{digits}f} to {iv.upper.reshape(-1)[j]:.{digits}f}"] if iv is not None else [])
                 for r, j in enumerate(top)
             ]
             note = (
@@ -173,19 +271,27 @@ class Distribution:
             )
         else:
             rows = [list(combo) + [f"{p:.{digits}f}"] for combo, p in self.items()]
+            if iv is not None:
+                for r, lo, hi in zip(rows, iv.lower.reshape(-1), iv.upper.reshape(-1)):
+                    r.append(f"{lo:.{digits}f} to {hi:.{digits}f}")
         widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
         lines = []
         if self.description:
             lines.append(self.description)
         if self.identified is False:
             lines.append("NOT IDENTIFIED: no amount of observational data pins this number down; it rests on the model.")
+        numeric = len(self.variables) + 1  # the probability column; the interval column after it
+
         lines.append("  ".join(h.ljust(w) for h, w in zip(header, widths)).rstrip())
         lines.append("  ".join("-" * w for w in widths))
         for r in rows:
-            cells = [c.ljust(w) for c, w in zip(r[:-1], widths)] + [r[-1].rjust(widths[-1])]
-            lines.append("  ".join(cells))
+            cells = [c.ljust(w) if i < numeric - 1 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths))]
+            lines.append("  ".join(cells).rstrip())
         if note:
             lines.append(note)
+        if iv is not None:
+            lines.append(f"interval: central {iv.level:.0%} of {iv.draws:,} {iv.method} draws; it covers the "
+                         "uncertainty from the rows, not the diagram's assumptions")
         return "\n".join(lines)
 
     def __str__(self) -> str:

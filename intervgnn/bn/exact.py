@@ -168,34 +168,82 @@ class ExactEngine:
         )
 
     # -------------------------------------------------------------- compute
-    def _contract(self, plan: _Plan, values: Mapping[str, int]) -> np.ndarray:
+    def _contract(self, plan: _Plan, values: Mapping[str, int], batch: Mapping[str, np.ndarray] | None = None) -> np.ndarray:
+        """Run a plan. ``batch`` replaces some CPTs by stacks ``[S, *cpt shape]``: the result then has a leading axis of S."""
+        batch = batch or {}
         slots: dict[int, np.ndarray] = {}
+        batched: set[int] = set()
         for i, (v, recipe) in enumerate(zip(plan.factor_vars, plan.slices)):
-            f = self.cpts[v]
+            stack = batch.get(v)
+            f = self.cpts[v] if stack is None else stack
+            lead = 0 if stack is None else 1
             if recipe:
                 index: list = [slice(None)] * f.ndim
                 for axis, name in recipe:
-                    index[axis] = values[name]
+                    index[axis + lead] = values[name]
                 f = f[tuple(index)]
             slots[i] = f
-        slot = plan.n_factors
-        for ins, (subs, out) in plan.steps:
+            if lead:
+                batched.add(i)
+
+        def run(ins, subs, out):
+            # the batch axis gets the first label the call does not use (numpy allows 52)
+            label = 1 + max([-1, *out, *(i for sub in subs for i in sub)])
             args = []
             for s, sub in zip(ins, subs):
-                args.append(slots.pop(s))
-                args.append(sub)
-            slots[slot] = np.einsum(*args, out) if args else np.ones(())
+                args.append(slots[s])
+                args.append(((label,) + tuple(sub)) if s in batched else sub)
+            any_batched = any(s in batched for s in ins)
+            out = ((label,) + tuple(out)) if any_batched else out
+            return (np.einsum(*args, out) if args else np.ones(())), any_batched
+
+        slot = plan.n_factors
+        for ins, (subs, out) in plan.steps:
+            result, any_batched = run(ins, subs, out)
+            for s in ins:
+                slots.pop(s)
+                batched.discard(s)
+            slots[slot] = result
+            if any_batched:
+                batched.add(slot)
             slot += 1
-        args = []
-        for s, sub in zip(plan.final_slots, plan.final_sublists):
-            args.append(slots[s])
-            args.append(sub)
-        if args:
-            result = np.einsum(*args, plan.out_sublist)
-        else:
-            result = np.ones(())
+        result, any_batched = run(plan.final_slots, plan.final_sublists, plan.out_sublist)
         # targets that have no factor cannot occur (a target always has its CPT)
+        if batch and not any_batched:  # no stacked CPT reaches the answer: the same for every member
+            size = len(next(iter(batch.values())))
+            result = np.broadcast_to(result, (size,) + result.shape)
         return result
+
+    def query_array_batch(
+        self,
+        targets: Sequence[str],
+        cpts: Mapping[str, np.ndarray],
+        do: Mapping[str, int] | None = None,
+        given: Mapping[str, int] | None = None,
+    ) -> np.ndarray:
+        """:meth:`query_array` for S networks at once that differ only in some CPTs.
+
+        ``cpts`` maps variables to stacks ``[S, *cpt shape]`` (the other CPTs
+        are the engine's own); one contraction with a batch axis answers all
+        S, e.g. for CPT sets drawn from a posterior. Returns ``[S, card(t)
+        for t in targets]``.
+
+        Raises
+        ------
+        QueryError, ZeroEvidenceError
+            As :meth:`query_array` (the evidence having probability zero in
+            any member).
+        """
+        check_answer_size(self.states, targets, None)
+        do = dict(do or {})
+        given = dict(given or {})
+        plan = self.plan(targets, tuple(do), tuple(given), None)
+        raw = self._contract(plan, {**do, **given}, cpts)
+        norm = raw.sum(axis=tuple(range(1, raw.ndim)), keepdims=True)
+        if np.any(norm <= 0.0):
+            ev = ", ".join(f"{k}={self.states[k][c]}" for k, c in given.items())
+            raise ZeroEvidenceError(f"the evidence {ev} has probability zero in some of the networks")
+        return raw / norm
 
     def query_array(
         self,

@@ -53,6 +53,7 @@ class NaiveEstimator(Estimator):
         self.states_ = table.states
         self.codes_ = table.codes
         self.columns_ = {v: j for j, v in enumerate(table.variables)}
+        self._fitted_rows = (table, graph)  # for bootstrap intervals
         return self
 
     def _answer(self, q: Query):

@@ -406,12 +406,14 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             except BaseException:
                 self._forget()
                 raise
+        self._fitted_rows = (table, graph)  # for bootstrap intervals
         return self
 
     def _forget(self) -> None:
         """Drop everything a previous fit learned (a new fit starts clean; a failed one leaves nothing)."""
         for name in ("graph_", "states_", "cells_", "n_rows_", "models_", "train_results_", "latent_scores_",
-                     "mixtures_", "network_", "answer_mode_", "table_rows_", "_count_rows", "_identifications"):
+                     "mixtures_", "network_", "answer_mode_", "table_rows_", "_count_rows", "_identifications",
+                     "_fitted_rows", "_bootstrap_refits"):
             self.__dict__.pop(name, None)
 
     # ------------------------------------------------------------ answering
@@ -713,6 +715,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
                 f"{path}: the saved model cannot answer queries ({type(exc).__name__}: {shorten(str(exc), 120)}); "
                 "fit the model again"
             ) from None
+        if table is not None and table.n_rows == rows:  # the rows it was fitted on: intervals resample them
+            est._fitted_rows = (table, saved_graph)
         return est
 
 
