@@ -45,6 +45,7 @@ bench: $(VENV)/.test
 	$(VENV)/bin/intervgnn run configs/relational-bins.yaml --output experiments/results/relational-bins
 	$(PY) experiments/bench/relational_ratios.py experiments/results/relational-bins/summary.csv --bins
 	$(PY) experiments/bench/relational_scale.py
+	$(PY) experiments/bench/interval_coverage.py --timing --out experiments/results/interval_coverage.json
 
 clean:
 	rm -rf $(VENV) build *.egg-info

@@ -94,8 +94,9 @@ def main():
         mine = [r for r in records if r["estimator"] == est_name]
         covs = [r["coverage"] for r in mine]
         confs = [r["confounded_coverage"] for r in mine if r["confounded_coverage"] == r["confounded_coverage"]]
+        conf_text = f"{min(confs):.3f} to {max(confs):.3f}" if confs else "(no confounded queries)"
         print(f"{est_name}: coverage per network and rows from {min(covs):.3f} to {max(covs):.3f} (goal 0.92 to "
-              f"0.98); confounded from {min(confs):.3f} to {max(confs):.3f} (goal 0.90 to 0.99)")
+              f"0.98); confounded from {conf_text} (goal 0.90 to 0.99)")
     if len(args.estimators) == 2:
         for n in args.rows:
             pw = np.mean([r["width"] for r in records if r["estimator"] == "plugin" and r["rows"] == n])
