@@ -76,10 +76,13 @@ def test_plugin_intervals_cover_the_exact_answers_most_of_the_time():
     assert 0.85 <= share <= 1.0
 
 
-def test_neural_bootstrap_interval_effect_and_cache():
+def test_bootstrap_interval_effect_and_cache():
+    # the default for estimators without a posterior: refits on resampled rows (here the back-door estimator)
+    from intervgnn.estimators import BackdoorEstimator
+
     net = ig.load_network("cancer")
     rows = net.sample(1000, seed=0)
-    est = NeuralEstimator(seed=0, steps=10).fit(rows, net.graph)
+    est = BackdoorEstimator().fit(rows, net.graph)
     d = est.query_interval("Dyspnoea", do={"Smoker": "True"}, draws=12, seed=2)
     assert d.interval.method == "bootstrap" and d.interval.samples.shape == (12, 2)
     assert np.all(d.interval.lower <= d.interval.upper)
@@ -92,8 +95,25 @@ def test_neural_bootstrap_interval_effect_and_cache():
     assert effect.estimate == pytest.approx(est.effect("Dyspnoea", "Smoker", "True", "False", "True"))
     payload = effect.to_dict()
     assert payload["method"] == "bootstrap" and "probability_positive" in payload
-    est.fit(rows, net.graph)  # a refit forgets the old refits
-    assert "_bootstrap_refits" not in est.__dict__ or est._bootstrap_refits[0] is not first
+    est.fit(rows, net.graph)  # a refit makes the kept refits stale
+    est.query_interval("Dyspnoea", do={"Smoker": "True"}, draws=12, seed=2)
+    assert est._bootstrap_refits[2] is not first
+
+
+def test_neural_interval_is_drawn_from_the_shrinkage_posterior():
+    # the neural answer is the mean of a Dirichlet posterior centred on the decoder (a mixture over strengths);
+    # with the strength forced to zero (prior_counts=1: counts alone) the interval must equal the plug-in's
+    # posterior interval with the same alpha drawn the same way (the plug-in's is checked against scipy above)
+    net = ig.load_network("cancer")
+    rows = net.sample(1000, seed=0)
+    est = NeuralEstimator(seed=0, steps=10).fit(rows, net.graph)
+    d = est.query_interval("Dyspnoea", do={"Smoker": "True"}, seed=2)
+    assert d.interval.method == "posterior" and d.interval.draws == 200
+    assert np.all(d.interval.lower <= d.probs + 0.02) and np.all(d.probs - 0.02 <= d.interval.upper)
+    effect = est.effect_interval("Dyspnoea", "Smoker", "True", "False", "True", seed=2)
+    assert effect.interval.method == "posterior" and effect.lower <= effect.estimate + 0.01
+    loaded_like = NeuralEstimator(seed=0, steps=10, mode="monte_carlo").fit(rows.take(np.arange(300)), net.graph)
+    assert loaded_like._interval_method() == "bootstrap"  # Monte Carlo mode has no tabulated posterior
 
 
 def test_printing_and_json_carry_the_interval():
@@ -117,9 +137,13 @@ def test_bad_interval_settings_and_a_model_without_rows(tmp_path):
         est.query_interval("Xray", draws=5)
     neural = NeuralEstimator(seed=0, steps=3).fit(rows, net.graph)
     neural.save(tmp_path / "m")
-    loaded = NeuralEstimator.load(tmp_path / "m")
+    loaded = NeuralEstimator.load(tmp_path / "m")  # exact mode: the posterior needs only the saved counts
+    np.testing.assert_allclose(loaded.query_interval("Xray", seed=1).interval.lower,
+                               neural.query_interval("Xray", seed=1).interval.lower)
+    sampled = NeuralEstimator(seed=0, steps=3, mode="monte_carlo", mc_samples=2000).fit(rows, net.graph)
+    sampled.save(tmp_path / "s")
     with pytest.raises(NotFittedError, match="no rows to resample"):
-        loaded.query_interval("Xray", draws=10)
+        NeuralEstimator.load(tmp_path / "s").query_interval("Xray", draws=10)
 
 
 def test_cli_interval_and_effect(capsys):

@@ -143,19 +143,23 @@ def dirichlet_rows(rng: np.random.Generator, alpha: np.ndarray, draws: int) -> n
     about 0.1% of the gamma's there and which costs a normal draw; smaller
     shapes are drawn exactly.
     """
-    shape = (draws,) + alpha.shape
-    big = alpha >= _WH_SHAPE
+    return dirichlet_draws(rng, np.broadcast_to(alpha, (draws,) + alpha.shape))
+
+
+def dirichlet_draws(rng: np.random.Generator, params: np.ndarray) -> np.ndarray:
+    """One Dirichlet draw per row of ``params`` (the last axis holds each row's parameters); see :func:`dirichlet_rows`."""
+    big = params >= _WH_SHAPE
     if big.all():
-        c = 1.0 / (9.0 * alpha)
-        g = alpha * (1.0 - c + rng.standard_normal(shape) * np.sqrt(c)) ** 3
+        c = 1.0 / (9.0 * params)
+        g = params * (1.0 - c + rng.standard_normal(params.shape) * np.sqrt(c)) ** 3
     elif not big.any():
-        g = rng.standard_gamma(np.broadcast_to(alpha, shape))
+        g = rng.standard_gamma(params)
     else:
-        g = np.empty(shape)
-        a_big, a_small = alpha[big], alpha[~big]
+        g = np.empty(params.shape)
+        a_big, a_small = params[big], params[~big]
         c = 1.0 / (9.0 * a_big)
-        g[:, big] = a_big * (1.0 - c + rng.standard_normal((draws, a_big.size)) * np.sqrt(c)) ** 3
-        g[:, ~big] = rng.standard_gamma(np.broadcast_to(a_small, (draws, a_small.size)))
+        g[big] = a_big * (1.0 - c + rng.standard_normal(a_big.size) * np.sqrt(c)) ** 3
+        g[~big] = rng.standard_gamma(a_small)
     return g / g.sum(axis=-1, keepdims=True)
 
 
