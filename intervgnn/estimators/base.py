@@ -218,6 +218,28 @@ class Estimator:
         refits = self._bootstrap(self.bootstrap_draws if draws is None else int(draws), seed)
         return [np.stack([m.query(t, do=d, given=g).probs for m in refits]) for t, d, g in queries]
 
+    def _posterior_answers(self, queries, draws: int, seed: int, draw_cpt) -> list[np.ndarray]:
+        """Answers of ``draws`` CPT sets drawn by ``draw_cpt(rng, v, draws) -> [draws, *cpt shape]``.
+
+        Only the CPTs the answers use are drawn (in a fixed order, so a seed
+        gives the same draws); every set is answered exactly by the fitted
+        network's engine in one batched contraction.
+        """
+        rng = np.random.default_rng(check_seed(seed))
+        engine = self.network_._engine
+        shaped = []
+        for target, do, given in queries:
+            q = make_query(self.states_, target, do, given)
+            shaped.append((q, {v: self.states_[v].index(s) for v, s in q.do},
+                           {v: self.states_[v].index(s) for v, s in q.given}))
+        needed = []
+        for q, codes, evidence in shaped:
+            for v in engine.plan(q.targets, tuple(codes), tuple(evidence)).factor_vars:
+                if v not in needed:
+                    needed.append(v)
+        batch = {v: draw_cpt(rng, v, draws) for v in needed}
+        return [engine.query_array_batch(q.targets, batch, codes, evidence) for q, codes, evidence in shaped]
+
     def _bootstrap(self, draws: int, seed: int) -> list:
         self._check_fitted()
         rows = self.__dict__.get("_fitted_rows")

@@ -24,7 +24,7 @@ from ..models.stats import MAX_FAMILY_CELLS, FamilyCells, GroupCells, config_ind
 from ..models.replicas import stack_models, unstack_models
 from ..models.training import init_output_bias, train_replicas, train_vgae
 from ..models.vgae import FamilyBatch, InterventionalVGAE, family_edges
-from ..query import Query, check_seed, make_query
+from ..query import Query, check_seed
 from ..table import Table
 from .base import ChecksIdentification, Estimator, check_fit_inputs
 
@@ -583,26 +583,15 @@ class NeuralEstimator(ChecksIdentification, Estimator):
 
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
-        rng = np.random.default_rng(check_seed(seed))
-        engine = self.network_._engine
-        shaped = []
-        for target, do, given in queries:
-            q = make_query(self.states_, target, do, given)
-            shaped.append((q, {v: self.states_[v].index(s) for v, s in q.do},
-                           {v: self.states_[v].index(s) for v, s in q.given}))
-        needed = []
-        for q, codes, evidence in shaped:
-            for v in engine.plan(q.targets, tuple(codes), tuple(evidence)).factor_vars:
-                if v not in needed:
-                    needed.append(v)
-        batch = {}
-        for v in needed:
+
+        def draw_cpt(rng, v, n):
             counts, base, mix, shape = self._posterior[v]
-            pick = rng.choice(mix.weight.size, size=draws, p=mix.weight)
+            pick = rng.choice(mix.weight.size, size=n, p=mix.weight)
             params = (counts[None] + mix.strength[pick][:, None, None] * base[None]
                       + mix.alpha[pick][:, None, None])
-            batch[v] = dirichlet_draws(rng, params).reshape((draws,) + shape)
-        return [engine.query_array_batch(q.targets, batch, codes, evidence) for q, codes, evidence in shaped]
+            return dirichlet_draws(rng, params).reshape((n,) + shape)
+
+        return self._posterior_answers(queries, draws, seed, draw_cpt)
 
     def _answer(self, q: Query):
         ident = self.identification(q)

@@ -7,7 +7,7 @@ import numpy as np
 from ..bn.network import MAX_CPT_ENTRIES, MAX_NETWORK_ENTRIES, CausalNetwork
 from ..errors import DataError, NotIdentified, ZeroEvidenceError
 from ..graph import CausalGraph
-from ..query import Query, check_seed, make_query
+from ..query import Query
 from ..table import Table
 from .base import ChecksIdentification, Estimator, check_alpha, check_fit_inputs
 from .estimand import network_oracle
@@ -284,21 +284,7 @@ class PluginEstimator(ChecksIdentification, Estimator):
             return super()._interval_samples(queries, level, draws, seed)
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
-        rng = np.random.default_rng(check_seed(seed))
-        engine = self.network_._engine
-        shaped = []
-        for target, do, given in queries:
-            q = make_query(self.states_, target, do, given)
-            codes = {v: self.states_[v].index(s) for v, s in q.do}
-            evidence = {v: self.states_[v].index(s) for v, s in q.given}
-            shaped.append((q, codes, evidence))
-        needed = []  # the CPTs the answers use, in a fixed order
-        for q, codes, evidence in shaped:
-            for v in engine.plan(q.targets, tuple(codes), tuple(evidence)).factor_vars:
-                if v not in needed:
-                    needed.append(v)
-        batch = {v: dirichlet_rows(rng, self._dirichlet[v], draws) for v in needed}
-        return [engine.query_array_batch(q.targets, batch, codes, evidence) for q, codes, evidence in shaped]
+        return self._posterior_answers(queries, draws, seed, lambda rng, v, n: dirichlet_rows(rng, self._dirichlet[v], n))
 
     def _answer(self, q: Query):
         ident = self.identification(q)
