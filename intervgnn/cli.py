@@ -194,9 +194,13 @@ def cmd_estimate(args) -> int:
             print(CAUTION)
             return EXIT_NOT_IDENTIFIABLE
         est.set_params(unidentified="answer")
-        dist = _answer_with_interval(est, args, do, given)
+        dist = est.query(args.target, do=do, given=given)  # no interval: nothing in the data pins this number down
         print(exc.identification.describe())
         print()
+        if args.interval is not None:
+            print("No interval is given: the query is not identifiable, so no amount of these rows narrows it down;")
+            print("the number below rests on the neural model's assumptions alone.")
+            print()
     if args.json:
         payload = {"estimate": dist.to_dict(), "estimator": label, "caution": CAUTION}
         if truth is not None:

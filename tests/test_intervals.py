@@ -166,3 +166,22 @@ def test_cli_interval_and_effect(capsys):
         assert main(base + extra) == 2
         err = capsys.readouterr().err
         assert message in err and "Traceback" not in err
+
+
+def test_a_query_that_is_not_identifiable_gets_no_interval(capsys):
+    # the bow-arc X <-> Y with X -> Y: P(Y | do(X)) is not identifiable (Pearl 2009, Causality, ch. 3; from
+    # memory); an interval would pretend the rows narrow it down
+    from intervgnn import NotIdentified
+    from intervgnn.cli import main
+
+    net = ig.load_network("cancer")
+    graph = ig.CausalGraph([("Smoker", "Cancer"), ("Pollution", "Cancer"), ("Cancer", "Xray"),
+                            ("Cancer", "Dyspnoea")], bidirected=[("Smoker", "Cancer")])
+    rows = net.sample(800, seed=0)
+    est = PluginEstimator().fit(rows, graph)
+    with pytest.raises(NotIdentified):
+        est.query_interval("Cancer", do={"Smoker": "True"})
+    neural = NeuralEstimator(seed=0, steps=3, latent_steps=20, latent_restarts=1, unidentified="answer").fit(rows, graph)
+    assert neural.query("Cancer", do={"Smoker": "True"}).identified is False
+    with pytest.raises(NotIdentified):
+        neural.query_interval("Cancer", do={"Smoker": "True"})
