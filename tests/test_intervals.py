@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pytest
 from scipy import stats
@@ -185,3 +187,46 @@ def test_a_query_that_is_not_identifiable_gets_no_interval(capsys):
     assert neural.query("Cancer", do={"Smoker": "True"}).identified is False
     with pytest.raises(NotIdentified):
         neural.query_interval("Cancer", do={"Smoker": "True"})
+
+
+def test_sweeps_score_intervals_with_coverage_and_width(tmp_path, capsys):
+    import csv
+
+    from intervgnn import ConfigError
+    from intervgnn.cli import main
+    from intervgnn.harness import load_config
+
+    config = tmp_path / "iv.yaml"
+    config.write_text(f"""
+name: iv
+output: {tmp_path / 'out'}
+networks: [cancer]
+rows: [500]
+seeds: [0, 1]
+queries: {{count: 4, kinds: [do], seed: 0}}
+estimators: [plugin, naive]
+metrics: [tv, coverage, width]
+intervals: {{level: 0.9, draws: 60}}
+""")
+    assert main(["run", str(config), "--quiet"]) == 0
+    capsys.readouterr()
+    with open(tmp_path / "out" / "summary.csv", newline="") as fh:
+        rows = [r for r in csv.DictReader(fh) if r["metric"] in ("coverage", "width") and r["subset"] == "all"]
+    assert {(r["estimator"], r["metric"]) for r in rows} == {("plugin", "coverage"), ("plugin", "width"),
+                                                            ("naive", "coverage"), ("naive", "width")}
+    assert all(0.0 <= float(r["mean"]) <= 1.0 for r in rows)
+    assert (tmp_path / "out" / "plots" / "coverage_vs_rows.png").stat().st_size > 1000
+    text = (tmp_path / "out" / "summary.md").read_text()
+    assert "share of exact probabilities inside the 90% interval" in text
+    base = {"name": "x", "networks": ["cancer"], "rows": [100], "seeds": [0], "estimators": ["plugin"]}
+    from intervgnn.harness.config import parse_config
+
+    for extra, message in [
+        ({"metrics": ["coverage"]}, "metrics: 'coverage' scores the answers' intervals; add an 'intervals' setting"),
+        ({"intervals": {"level": 1.2}}, "intervals.level: expected a number between 0 and 1, got 1.2"),
+        ({"intervals": {"draws": 5}}, "intervals.draws"),
+        ({"intervals": {"levle": 0.9}}, "did you mean 'level'"),
+    ]:
+        with pytest.raises(ConfigError, match=re.escape(message)):
+            parse_config({**base, **extra})
+    assert load_config(config).interval_level == 0.9

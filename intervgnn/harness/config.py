@@ -24,6 +24,7 @@ Shape of a config::
     executor: local                  # or ray
     workers: 2
     bootstrap: 1000                  # resamples for the confidence intervals (0: none, else >= 100)
+    intervals: {level: 0.95, draws: 200}   # optional: an interval on every answer; metrics coverage, width
 
 A value that would make every run fail, or that would do nothing, is
 refused when the config is read, with the key path: each estimator checks
@@ -56,12 +57,15 @@ __all__ = ["ExperimentConfig", "NetworkSpec", "EstimatorSpec", "load_config", "p
 
 TOP_KEYS = (
     "name", "output", "networks", "rows", "experiments", "seeds", "queries",
-    "estimators", "metrics", "executor", "workers", "bootstrap",
+    "estimators", "metrics", "executor", "workers", "bootstrap", "intervals",
 )
+INTERVAL_KEYS = ("level", "draws")
+#: metrics computed from the answers' intervals (they need an ``intervals`` setting)
+INTERVAL_METRICS = ("coverage", "width")
 NETWORK_KEYS = ("network", "hidden", "label")
 QUERY_KEYS = ("count", "kinds", "seed")
 EXPERIMENT_KEYS = ("targets", "count", "rows_per_target")
-METRIC_NAMES = ("tv", "kl", "jsd", "hellinger", "effect")
+METRIC_NAMES = ("tv", "kl", "jsd", "hellinger", "effect", "coverage", "width")
 EXECUTORS = ("local", "ray")
 #: fewer resamples give percentile intervals too coarse to read
 MIN_BOOTSTRAP = 100
@@ -202,6 +206,8 @@ class ExperimentConfig:
     executor: str = "local"
     workers: int = 1
     bootstrap: int = 1000
+    interval_level: float | None = None
+    interval_draws: int | None = None
     source: str = "<config>"
 
     @property
@@ -389,11 +395,28 @@ def parse_config(doc, source: str = "<config>") -> ExperimentConfig:
         raise ConfigError(f"bootstrap: expected 0 (no interval) or a whole number of at least {MIN_BOOTSTRAP}, got {short_repr(boot)}")
     if boot > MAX_BOOTSTRAP:
         raise ConfigError(f"bootstrap: {short_repr(boot)} resamples; at most {MAX_BOOTSTRAP:,} are allowed")
+    level = draws = None
+    if "intervals" in doc:
+        iv = doc.get("intervals") or {}
+        if not isinstance(iv, Mapping):
+            raise ConfigError(f"intervals: expected a mapping such as {{level: 0.95}}, got {_type_name(iv)}")
+        _check_keys("intervals", iv, INTERVAL_KEYS)
+        level = iv.get("level", 0.95)
+        if isinstance(level, bool) or not isinstance(level, (int, float)) or not 0 < level < 1:
+            raise ConfigError(f"intervals.level: expected a number between 0 and 1, got {short_repr(level)}")
+        draws = iv.get("draws")
+        if draws is not None:
+            _whole("intervals.draws", draws, 20, 100_000)
+        level = float(level)
+    for m in metrics:
+        if m in INTERVAL_METRICS and level is None:
+            raise ConfigError(f"metrics: '{m}' scores the answers' intervals; add an 'intervals' setting "
+                              "(e.g. intervals: {level: 0.95})")
     cfg = ExperimentConfig(
         name=str(name), output=output, networks=networks, rows=rows, seeds=seeds, estimators=estimators,
         query_count=count, query_kinds=tuple(kinds), query_seed=qseed, experiment_targets=tuple(targets),
         experiment_count=ex_count, rows_per_target=per, metrics=tuple(metrics), executor=executor,
-        workers=workers, bootstrap=boot, source=source,
+        workers=workers, bootstrap=boot, interval_level=level, interval_draws=draws, source=source,
     )
     if cfg.grid_size == 0:
         empty = [k for k, v in (("networks", networks), ("rows", rows), ("seeds", seeds), ("estimators", estimators)) if not v]

@@ -10,7 +10,7 @@ from .._io import atomic_open
 from .config import ExperimentConfig, NetworkSpec
 from .runs import prepared_network
 
-__all__ = ["error_vs_rows", "confounded_bars"]
+__all__ = ["error_vs_rows", "confounded_bars", "coverage_vs_rows"]
 
 
 def _pyplot():
@@ -52,6 +52,42 @@ def error_vs_rows(cfg: ExperimentConfig, summary: list[dict], network: str, path
     try:
         with atomic_open(path, "wb") as fh:
             fig.savefig(fh, dpi=110, format=os.path.splitext(path)[1][1:].lower() or "png")
+    finally:
+        plt.close(fig)
+    return path
+
+
+def coverage_vs_rows(cfg: ExperimentConfig, summary: list[dict], path: str) -> str | None:
+    """Coverage of the answers' intervals against training rows, one line per estimator (means over networks), the nominal level marked."""
+    rows = [r for r in summary if r["metric"] == "coverage" and r["subset"] in ("all", "confounded")]
+    if not rows or cfg.interval_level is None:
+        return None
+    plt = _pyplot()
+    fig, ax = plt.subplots(figsize=(8.4, 4.4))
+    colors = plt.rcParams["axes.prop_cycle"].by_key()["color"]
+    for i, est in enumerate(e.label for e in cfg.estimators):
+        for subset, style in (("all", "-"), ("confounded", "--")):
+            by_rows: dict[int, list[float]] = {}
+            for r in rows:
+                if r["estimator"] == est and r["subset"] == subset:
+                    by_rows.setdefault(r["rows"], []).append(r["mean"])
+            if not by_rows:
+                continue
+            x = sorted(by_rows)
+            ax.plot(x, [float(np.mean(by_rows[n])) for n in x], style + "o", color=colors[i % len(colors)],
+                    markersize=4, label=f"{est} ({subset})")
+    ax.axhline(cfg.interval_level, color="black", linewidth=1, linestyle=":", label=f"nominal {cfg.interval_level:.0%}")
+    ax.set_xscale("log")
+    ax.set_ylim(min(0.5, ax.get_ylim()[0]), 1.01)
+    ax.set_xlabel("training rows")
+    ax.set_ylabel("share of exact probabilities inside the interval")
+    ax.set_title(f"coverage of {cfg.interval_level:.0%} intervals against rows (mean over networks)")
+    ax.grid(True, which="both", alpha=0.3)
+    ax.legend(fontsize=7, loc="center left", bbox_to_anchor=(1.01, 0.5))
+    fig.tight_layout()
+    try:
+        with atomic_open(path, "wb") as fh:
+            fig.savefig(fh, dpi=110, format="png")
     finally:
         plt.close(fig)
     return path

@@ -64,6 +64,7 @@ def run_digest(spec: RunSpec, cfg: ExperimentConfig) -> str:
         "estimator": {"kind": spec.estimator.kind, "settings": spec.estimator.settings},
         "queries": [cfg.query_count, list(cfg.query_kinds), cfg.query_seed],
         "experiments": [list(cfg.experiment_targets), cfg.experiment_count, cfg.rows_per_target],
+        **({"intervals": [cfg.interval_level, cfg.interval_draws]} if cfg.interval_level is not None else {}),
     }
     return hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
 
@@ -241,6 +242,15 @@ def execute_run(spec: RunSpec, cfg: ExperimentConfig) -> dict:
                 # the estimate is kept, not its scores: metrics are computed when summarising,
                 # so a metric added to the config later needs no rerun
                 rec["estimate"] = dist.probs.ravel().tolist()
+                if cfg.interval_level is not None:
+                    try:
+                        iv = est.query_interval(list(q.target), do=q.do_dict, given=q.given_dict,
+                                                level=cfg.interval_level, draws=cfg.interval_draws, seed=spec.seed)
+                    except UnsupportedQuery as exc:  # e.g. not identifiable: no data-driven interval
+                        rec["interval"] = str(exc)[:300]
+                    else:
+                        rec["lower"] = iv.interval.lower.ravel().tolist()
+                        rec["upper"] = iv.interval.upper.ravel().tolist()
             records.append(rec)
         query_s = time.perf_counter() - t0
     finally:

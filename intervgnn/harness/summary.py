@@ -94,10 +94,15 @@ def summarise(cfg: ExperimentConfig, records: list[dict]):
                 metrics = {m: METRICS[m](q.exact, estimate) for m in cfg.metrics if m in METRICS}
             if r["qid"] in effects:
                 metrics["effect"] = effects[r["qid"]]
+            if "lower" in r:  # the answer's interval: the share of exact probabilities inside, and its width
+                lo, hi = np.asarray(r["lower"]), np.asarray(r["upper"])
+                exact = q.exact.probs.ravel()
+                metrics["coverage"] = float(((exact >= lo - 1e-12) & (exact <= hi + 1e-12)).mean())
+                metrics["width"] = float((hi - lo).mean())
             for m in cfg.metrics:
                 value = metrics.get(m)
-                if m == "effect" and value is None and r["status"] == "ok":
-                    continue  # no contrast for this query (reference state or joint treatment)
+                if m in ("effect", "coverage", "width") and value is None and r["status"] == "ok":
+                    continue  # no contrast (reference state or joint treatment), or no interval (not identifiable)
                 query_rows.append({
                     "network": rec["network"], "rows": rec["rows"], "seed": rec["seed"], "estimator": rec["estimator"],
                     "qid": q.qid, "kind": q.kind, "confounded": int(q.confounded),
@@ -146,9 +151,14 @@ def markdown_tables(cfg: ExperimentConfig, summary: list[dict], metric: str = "t
         rows = [r for r in summary if r["metric"] == metric and r["subset"] == subset]
         if not rows:
             continue
+        # an error is best when smallest; coverage is best near the nominal level, a width only with it
+        marks = metric not in ("coverage", "width")
+        what = {"coverage": f"share of exact probabilities inside the {cfg.interval_level or 0.95:.0%} interval",
+                "width": "mean width of the intervals"}.get(metric, "mean over queries")
         out.append(
-            f"#### {metric.upper()}, {subset} queries (mean over queries, 95% bootstrap interval; n = queries; "
-            "[k] = the estimator answered only k of them; bold = best among those that answered all)\n"
+            f"#### {metric.upper()}, {subset} queries ({what}, 95% bootstrap interval; n = queries; "
+            "[k] = the estimator answered only k of them"
+            + ("; bold = best among those that answered all)\n" if marks else ")\n")
         )
         out.append("| network | rows | n | " + " | ".join(ests) + " |")
         out.append("|---|---:|---:|" + "---:|" * len(ests))
@@ -160,7 +170,7 @@ def markdown_tables(cfg: ExperimentConfig, summary: list[dict], metric: str = "t
         for (network, nrows), byest in cells.items():
             # the best is marked among estimators that answered every query of the row
             vals = [byest[e]["mean"] for e in ests if e in byest and byest[e]["n_queries"] == ns[(network, nrows)]]
-            best = min(vals) if vals else None
+            best = min(vals) if vals and marks else None
             line = []
             for e in ests:
                 r = byest.get(e)
@@ -182,7 +192,7 @@ def write_outputs(cfg: ExperimentConfig, records: list[dict], summarised: tuple 
     ``summarised`` is what :func:`summarise` returned for these records, if
     the caller has it already.
     """
-    from .plots import confounded_bars, error_vs_rows
+    from .plots import confounded_bars, coverage_vs_rows, error_vs_rows
     from .report import write_report
 
     make_folder(cfg.output)
@@ -205,6 +215,8 @@ def write_outputs(cfg: ExperimentConfig, records: list[dict], summarised: tuple 
     plot_dir = os.path.join(cfg.output, "plots")
     make_folder(plot_dir)
     images = []
+    if "coverage" in cfg.metrics:
+        images.append(coverage_vs_rows(cfg, summary, os.path.join(plot_dir, "coverage_vs_rows.png")))
     for net in cfg.networks:
         images.append(error_vs_rows(cfg, summary, net.label, os.path.join(plot_dir, f"error_vs_rows_{net.label}.png")))
         bars = confounded_bars(cfg, records, net, os.path.join(plot_dir, f"confounded_{net.label}.png"))
