@@ -22,6 +22,17 @@ def _pyplot():
     return plt
 
 
+def _save(plt, fig, path: str) -> str:
+    """Write the figure atomically (its format from the file name) and close it."""
+    fig.tight_layout()
+    try:
+        with atomic_open(path, "wb") as fh:
+            fig.savefig(fh, dpi=110, format=os.path.splitext(path)[1][1:].lower() or "png")
+    finally:
+        plt.close(fig)
+    return path
+
+
 def error_vs_rows(cfg: ExperimentConfig, summary: list[dict], network: str, path: str, metric: str | None = None) -> str | None:
     """Mean error against training rows, one line per estimator (solid: all queries, dashed: confounded); log-log where all values are positive."""
     metric = metric or ("tv" if "tv" in cfg.metrics else cfg.metrics[0])
@@ -48,13 +59,7 @@ def error_vs_rows(cfg: ExperimentConfig, summary: list[dict], network: str, path
     ax.set_title(f"{network}: error against rows (95% bootstrap intervals)")
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=7, loc="center left", bbox_to_anchor=(1.01, 0.5))
-    fig.tight_layout()
-    try:
-        with atomic_open(path, "wb") as fh:
-            fig.savefig(fh, dpi=110, format=os.path.splitext(path)[1][1:].lower() or "png")
-    finally:
-        plt.close(fig)
-    return path
+    return _save(plt, fig, path)
 
 
 def coverage_vs_rows(cfg: ExperimentConfig, summary: list[dict], path: str) -> str | None:
@@ -84,13 +89,7 @@ def coverage_vs_rows(cfg: ExperimentConfig, summary: list[dict], path: str) -> s
     ax.set_title(f"coverage of {cfg.interval_level:.0%} intervals against rows (mean over networks)")
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=7, loc="center left", bbox_to_anchor=(1.01, 0.5))
-    fig.tight_layout()
-    try:
-        with atomic_open(path, "wb") as fh:
-            fig.savefig(fh, dpi=110, format="png")
-    finally:
-        plt.close(fig)
-    return path
+    return _save(plt, fig, path)
 
 
 def confounded_bars(cfg: ExperimentConfig, records: list[dict], net: NetworkSpec, path: str, top: int = 4) -> str | None:
@@ -126,10 +125,4 @@ def confounded_bars(cfg: ExperimentConfig, records: list[dict], net: NetworkSpec
         ax.axhline(exact[k], color="black", lw=0.8, ls=":")
     axes[0][0].set_ylabel("probability")
     fig.suptitle(f"{net.label}: most confounded queries, {n_max} rows, seed {seed}", fontsize=9)
-    fig.tight_layout()
-    try:
-        with atomic_open(path, "wb") as fh:
-            fig.savefig(fh, dpi=110, format=os.path.splitext(path)[1][1:].lower() or "png")
-    finally:
-        plt.close(fig)
-    return path
+    return _save(plt, fig, path)
