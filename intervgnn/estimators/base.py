@@ -232,14 +232,18 @@ class Estimator:
         refits = self._bootstrap(self.bootstrap_draws if draws is None else int(draws), seed)
         return [np.stack([m.query(t, do=d, given=g).probs for m in refits]) for t, d, g in queries]
 
+    #: the most CPT entries times draws kept between interval answers (2^25 floats, 256 MiB)
+    _MAX_KEPT_DRAWS = 2**25
+
     def _posterior_answers(self, queries, draws: int, seed: int, draw_cpt) -> list[np.ndarray]:
         """Answers of ``draws`` CPT sets drawn by ``draw_cpt(rng, v, draws) -> [draws, *cpt shape]``.
 
-        Only the CPTs the answers use are drawn (in a fixed order, so a seed
-        gives the same draws); every set is answered exactly by the fitted
-        network's engine in one batched contraction.
+        Every CPT is drawn, in the network's order (so a seed gives the same
+        draws whatever is asked), once per ``(draws, seed)``: the draws are
+        kept for the next interval, which then costs one batched contraction
+        of the CPTs it uses. A network too large to keep its draws (over
+        2^25 entries times draws) draws only the CPTs each answer uses.
         """
-        rng = np.random.default_rng(check_seed(seed))
         engine = self.network_._engine
         shaped = []
         for target, do, given in queries:
@@ -251,7 +255,19 @@ class Estimator:
             for v in engine.plan(q.targets, tuple(codes), tuple(evidence)).factor_vars:
                 if v not in needed:
                     needed.append(v)
-        batch = {v: draw_cpt(rng, v, draws) for v in needed}
+        kept = self.__dict__.get("_posterior_draws_kept")
+        if kept is not None and kept[0] is self.network_ and kept[1] == (draws, seed):
+            batch = kept[2]
+        else:
+            rng = np.random.default_rng(check_seed(seed))
+            nodes = list(self.network_.graph.nodes)
+            size = sum(engine.cpts[v].size for v in nodes) * draws
+            if size <= self._MAX_KEPT_DRAWS:
+                batch = {v: draw_cpt(rng, v, draws) for v in nodes}
+                self._posterior_draws_kept = (self.network_, (draws, seed), batch)
+            else:
+                batch = {v: draw_cpt(rng, v, draws) for v in needed}
+        batch = {v: batch[v] for v in needed}
         return [engine.query_array_batch(q.targets, batch, codes, evidence) for q, codes, evidence in shaped]
 
     def _bootstrap(self, draws: int, seed: int) -> list:
