@@ -413,7 +413,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """Drop everything a previous fit learned (a new fit starts clean; a failed one leaves nothing)."""
         for name in ("graph_", "states_", "cells_", "n_rows_", "models_", "train_results_", "latent_scores_",
                      "mixtures_", "network_", "answer_mode_", "table_rows_", "_count_rows", "_identifications",
-                     "_fitted_rows", "_bootstrap_refits", "_posterior"):
+                     "_fitted_rows", "_bootstrap_refits", "_posterior", "_posterior_draws_kept"):
             self.__dict__.pop(name, None)
 
     # ------------------------------------------------------------ answering
