@@ -170,11 +170,10 @@ def test_cli_interval_and_effect(capsys):
         assert message in err and "Traceback" not in err
 
 
-def test_a_query_that_is_not_identifiable_gets_no_interval(capsys):
+def test_a_query_that_is_not_identifiable_gets_no_interval():
     # the bow-arc X <-> Y with X -> Y: P(Y | do(X)) is not identifiable (Pearl 2009, Causality, ch. 3; from
     # memory); an interval would pretend the rows narrow it down
     from intervgnn import NotIdentified
-    from intervgnn.cli import main
 
     net = ig.load_network("cancer")
     graph = ig.CausalGraph([("Smoker", "Cancer"), ("Pollution", "Cancer"), ("Cancer", "Xray"),

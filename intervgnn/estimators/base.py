@@ -164,7 +164,7 @@ class Estimator:
             hedge).
         """
         point = self.query(target, do=do, given=given)
-        self._refuse_unidentified_interval(point, target, do, given)
+        self._refuse_unidentified_interval(target, do, given)
         samples = self._interval_samples([(target, do, given)], level, draws, seed)[0]
         return Distribution(
             point.variables, point.states, point.probs, description=point.description,
@@ -198,8 +198,7 @@ class Estimator:
         check_state(self.states_, check_variable(self.states_, outcome, "target"), state)
         k = self.states_[outcome].index(state)
         estimate = self.effect(outcome, treatment, a, b, state, given=given)
-        self._refuse_unidentified_interval(self.query(outcome, do={treatment: a}, given=given), outcome,
-                                           {treatment: a}, given)
+        self._refuse_unidentified_interval(outcome, {treatment: a}, given)
         pa, pb = self._interval_samples(
             [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)], level, draws, seed
         )
@@ -211,11 +210,12 @@ class Estimator:
     def _interval_method(self) -> str:
         return "bootstrap"
 
-    def _refuse_unidentified_interval(self, point: Distribution, target, do, given) -> None:
-        if point.identified is False:
+    def _refuse_unidentified_interval(self, target, do, given) -> None:
+        q = make_query(self.states_, target, do, given)
+        if self._identified(q) is False:
             from ..errors import NotIdentified
 
-            raise NotIdentified(self.identification(make_query(self.states_, target, do, given)))
+            raise NotIdentified(self.identification(q))
 
     @staticmethod
     def _check_interval_settings(level, draws, seed, least: int = 20) -> None:

@@ -50,6 +50,7 @@ import numpy as np
 
 from .._io import atomic_open, make_folder
 from ..errors import ConfigError, IntervgnnError, did_you_mean, short_repr
+from .config import _check_keys
 
 __all__ = ["RelationalConfig", "parse_relational_config", "run_relational", "RELATIONAL_ESTIMATORS", "draw_queries"]
 
@@ -99,12 +100,7 @@ def _whole(value, path: str, lo: int, hi: int, source: str) -> int:
 
 
 def _keys(d: Mapping, allowed, path: str, source: str) -> None:
-    for key in d:
-        if key not in allowed:
-            raise ConfigError(
-                f"{_where(source, path)}: unknown key {short_repr(key)}{did_you_mean(str(key), allowed)}; "
-                f"keys are: {', '.join(allowed)}"
-            )
+    _check_keys(_where(source, path), d, allowed)
 
 
 def _list(value, path: str, source: str) -> list:

@@ -535,6 +535,18 @@ def _count_mechanism(data: RelationalData, mech: Mechanism, aggregates, related)
     return np.bincount(flat, minlength=int(np.prod(shape))).reshape(shape).astype(np.float64)
 
 
+def check_fit_data(datas, template) -> None:
+    """DataError unless every item of ``datas`` is :class:`RelationalData` over the schema of the :class:`Template`."""
+    for d in datas:
+        if not isinstance(d, RelationalData):
+            raise DataError(f"fit expects RelationalData, got {type(d).__name__}")
+    if not isinstance(template, Template):
+        raise DataError(f"fit expects a Template, got {type(template).__name__}")
+    for d in datas:
+        if d.schema != template.schema:
+            raise DataError("the data are over another schema than the template; build both from one schema")
+
+
 class RelationalPluginEstimator(Estimator):
     """Tied-parameter plug-in: count each mechanism's CPT over all instances and draws, then answer exactly.
 
@@ -585,12 +597,7 @@ class RelationalPluginEstimator(Estimator):
             schema than the template.
         """
         self._check_settings()
-        if not isinstance(data, RelationalData):
-            raise DataError(f"fit expects RelationalData, got {type(data).__name__}")
-        if not isinstance(template, Template):
-            raise DataError(f"fit expects a Template, got {type(template).__name__}")
-        if data.schema != template.schema:
-            raise DataError("the data are over another schema than the template; build both from one schema")
+        check_fit_data([data], template)
         self._clear_fitted()
         related = _related(data.skeleton)
         alpha = float(self.alpha)

@@ -66,7 +66,7 @@ from ..models.training import TrainResult, init_output_bias, train_vgae
 from ..models.vgae import FamilyBatch, InterventionalVGAE
 from ..query import check_seed
 from .data import RelationalData
-from .estimate import RelationalPluginEstimator, aggregate_counts
+from .estimate import RelationalPluginEstimator, aggregate_counts, check_fit_data
 from .grounding import _related
 from .model import Aggregate, Mechanism, Template
 
@@ -380,14 +380,7 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
         datas = list(data) if isinstance(data, (list, tuple)) else [data]
         if not datas:
             raise DataError("fit expects RelationalData or a non-empty list of them, got an empty list")
-        for d in datas:
-            if not isinstance(d, RelationalData):
-                raise DataError(f"fit expects RelationalData, got {type(d).__name__}")
-        if not isinstance(template, Template):
-            raise DataError(f"fit expects a Template, got {type(template).__name__}")
-        for d in datas:
-            if d.schema != template.schema:
-                raise DataError("the data are over another schema than the template; build both from one schema")
+        check_fit_data(datas, template)
         self._clear_fitted()
         schema, skeleton = datas[0].schema, datas[0].skeleton
         rng = np.random.default_rng(_seed(self.seed, 1))
