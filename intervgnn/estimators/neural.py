@@ -523,7 +523,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             s = codes.shape[0]
             cfg = config_index(codes, parents[v], [cards[p] for p in parents[v]])
             node = np.full(s, v)
-            edges = torch.as_tensor(family_edges(parents, cards, node, cfg, 0))
+            edges = torch.as_tensor(family_edges(parents, cards, node, cfg))
             z = torch.randn(s, model.z_dim, generator=gen)
             uu = None if u is None else torch.as_tensor(u)
             with torch.no_grad():

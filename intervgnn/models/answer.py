@@ -91,7 +91,7 @@ def conditionals(
         b = sl.stop - sl.start
         rep_node = np.repeat(node[sl], samples)
         rep_cfg = np.repeat(cfg[sl], samples)
-        edges = torch.as_tensor(family_edges(parents, model.cards, rep_node, rep_cfg, 0), device=dev)
+        edges = torch.as_tensor(family_edges(parents, model.cards, rep_node, rep_cfg), device=dev)
         z = points.repeat(b, 1)
         uu = None if u is None else torch.as_tensor(np.repeat(np.asarray(u)[sl], samples), device=dev)
         logits = model.decode_families(torch.as_tensor(rep_node, device=dev), z, edges, uu, values)

@@ -33,15 +33,16 @@ class Latents(NamedTuple):
     member: Tensor | None = None
 
 
-def family_edges(parents, cards, node: np.ndarray, cfg: np.ndarray, first: int) -> np.ndarray:
+def family_edges(parents, cards, node: np.ndarray, cfg: np.ndarray) -> np.ndarray:
     """Parent -> child edges ``[2, E]`` of a batch of small family graphs (stars).
 
     Item ``j`` is node ``node[j]`` in parent configuration ``cfg[j]`` (mixed
     radix over ``parents[node[j]]``, first parent most significant). Sources
     are *value nodes*, one per (variable, state) numbered as in
-    :attr:`InterventionalVGAE.offsets`; the target of item ``j`` is node
-    ``first + j``. Each item receives one message per parent, from the value
-    node of that parent's state, exactly as node ``node[j]`` does in a row.
+    :attr:`InterventionalVGAE.offsets`; the target of item ``j`` is item
+    ``j`` (a bipartite graph: value nodes -> items). Each item receives one
+    message per parent, from the value node of that parent's state, exactly
+    as node ``node[j]`` does in a row.
     """
     offsets = np.concatenate([[0], np.cumsum(cards)[:-1]]).astype(np.int64)
     src, dst = [], []
@@ -56,7 +57,7 @@ def family_edges(parents, cards, node: np.ndarray, cfg: np.ndarray, first: int) 
         for p in reversed(pa):  # least significant parent last in the radix
             rest, s = np.divmod(rest, cards[p])
             src.append(offsets[p] + s)
-            dst.append(first + items)
+            dst.append(items)
     if not src:
         return np.zeros((2, 0), dtype=np.int64)
     return np.stack([np.concatenate(src), np.concatenate(dst)])
@@ -98,7 +99,7 @@ class FamilyBatch:
         """Lay out ``cells`` (:class:`~intervgnn.models.stats.FamilyCells`) for ``model``."""
         node, cfg, state = cells.node, cells.cfg, cells.state
         n_cells = int(node.size)
-        enc = family_edges(cells.parents, cells.cards, node, cfg, 0)
+        enc = family_edges(cells.parents, cells.cards, node, cfg)
         member_group = model.node_group.cpu().numpy()
         is_member = member_group[node] >= 0 if n_cells else np.zeros(0, dtype=bool)
         s = model.u_states if model.num_groups else 1
@@ -110,7 +111,7 @@ class FamilyBatch:
         free_item[free] = np.arange(free.size)
         member_item = np.full((n_cells, s), -1, dtype=np.int64)
         member_item[members] = free.size + np.arange(members.size * s).reshape(members.size, s)
-        dec = family_edges(cells.parents, cells.cards, node[dec_cell], cfg[dec_cell], 0)
+        dec = family_edges(cells.parents, cells.cards, node[dec_cell], cfg[dec_cell])
         dev = model.offsets.device
         as_t = lambda a: torch.as_tensor(np.ascontiguousarray(a), dtype=torch.long, device=dev)  # noqa: E731
         index = {g: i for i, g in enumerate(model.groups)}
@@ -232,11 +233,9 @@ class InterventionalVGAE(torch.nn.Module):
             valid[v, :c] = True
         self.register_buffer("state_index", idx, persistent=False)
         self.num_values = total
-        self.register_buffer(
-            "value_node", torch.repeat_interleave(torch.arange(len(cards)), torch.tensor(cards)), persistent=False
-        )
+        value_node = torch.repeat_interleave(torch.arange(len(cards)), torch.tensor(cards))  # node of each value
         self.register_buffer("valid", valid, persistent=False)
-        self.register_buffer("value_mechanism", self.mechanism[self.value_node], persistent=False)
+        self.register_buffer("value_mechanism", self.mechanism[value_node], persistent=False)
         # confounded groups: membership [G, N] and each node's group (-1: none)
         self.groups = [tuple(int(i) for i in g) for g in groups]
         self.num_groups = len(self.groups)

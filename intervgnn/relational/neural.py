@@ -338,7 +338,7 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
             )
 
     @staticmethod
-    def _family_edges(mech: Mechanism, node: int, own: np.ndarray, hits: np.ndarray, degree: np.ndarray,
+    def _family_edges(own: np.ndarray, hits: np.ndarray, degree: np.ndarray,
                       cards_own: list[int], own_offsets: list[int], agg_offsets: list[int]):
         """Edges ``[2, E]`` (value node -> family j) and their features ``[E, EDGE_DIM]`` for families of one mechanism."""
         m = own.size
@@ -463,7 +463,7 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
         cards_own = [len(schema.entities[m.entity][p]) for p in m.parents]
         own_offsets = [int(offsets[index[(m.entity, p)]]) for p in m.parents]
         agg_offsets = [int(offsets[agg_node[(i, j)]]) for j in range(len(m.aggregates))]
-        return self._family_edges(m, i, own, hits, degree, cards_own, own_offsets, agg_offsets)
+        return self._family_edges(own, hits, degree, cards_own, own_offsets, agg_offsets)
 
     @torch.no_grad()
     def _conditionals(self, model: InterventionalVGAE, i: int, edges: np.ndarray, attr: np.ndarray, m: int,
