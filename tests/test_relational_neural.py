@@ -209,3 +209,31 @@ def test_made_up_families_for_rows_the_data_never_reach_lie_in_their_bin():
     for b in range(c.num_bins):
         hits, degree = _representative(c, b, typical=1, most=1)
         assert c.bin_of_counts(degree)[hits] == b
+
+
+def test_the_decoder_reads_only_what_an_aggregate_declares(fitted):
+    # A mechanism reads a share aggregate through the share alone and a count aggregate through the count in
+    # the state alone (the template's declaration, see intervgnn.relational.model): families that agree on
+    # that get the same decoder conditional, whatever else differs (common practice, no source).
+    est = fitted
+    template = est.template_
+    keys, _, _, agg_node, offsets = est._lifted(template)
+    schema = template.schema
+    model = est.models_[0]
+    for i, key in enumerate(keys):
+        m = template.mechanisms[key]
+        if not m.aggregates:
+            continue
+        g = m.aggregates[0]
+        if g.kind == "share":  # share 1/2 out of 2, 4 and 6 related
+            hits, degree = np.array([[1], [2], [3]]), np.array([[2], [4], [6]])
+        else:  # 2 in the state out of 2, 5 and 9 related
+            hits, degree = np.array([[2], [2], [2]]), np.array([[2], [5], [9]])
+        own = np.zeros(3, np.int64)
+        e, a = est._mech_edges(m, i, own, hits, degree, schema, keys, agg_node, offsets)
+        p = est._conditionals(model, i, e, a, 3, seed=0)
+        np.testing.assert_allclose(p[1:], np.broadcast_to(p[0], p[1:].shape), atol=1e-6)
+        # and what it declares does move the conditional
+        other = np.zeros((3, 1), np.int64)  # none of the related instances in the state
+        e2, a2 = est._mech_edges(m, i, own, other, degree, schema, keys, agg_node, offsets)
+        assert not np.allclose(est._conditionals(model, i, e2, a2, 3, seed=0)[0], p[0], atol=1e-6)

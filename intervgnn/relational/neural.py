@@ -68,7 +68,7 @@ from ..query import check_seed
 from .data import RelationalData
 from .estimate import RelationalPluginEstimator, aggregate_counts, check_fit_data
 from .grounding import _related
-from .model import Aggregate, Mechanism, Template
+from .model import SHARE, Aggregate, Mechanism, Template
 
 __all__ = ["RelationalNeuralEstimator", "count_families", "MechanismFamilies"]
 
@@ -339,8 +339,15 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
 
     @staticmethod
     def _family_edges(own: np.ndarray, hits: np.ndarray, degree: np.ndarray,
-                      cards_own: list[int], own_offsets: list[int], agg_offsets: list[int]):
-        """Edges ``[2, E]`` (value node -> family j) and their features ``[E, EDGE_DIM]`` for families of one mechanism."""
+                      cards_own: list[int], own_offsets: list[int], agg_offsets: list[int], kinds: list[str]):
+        """Edges ``[2, E]`` (value node -> family j) and their features ``[E, EDGE_DIM]`` for families of one mechanism.
+
+        An aggregate's two messages carry only what its kind says the
+        mechanism reads: a share aggregate the shares (in the state, in
+        another; both 0 with no related instance), a count aggregate
+        log(1 + count) of the related instances in the state. The template
+        declares the rest irrelevant, so the decoder is not given it to fit.
+        """
         m = own.size
         src, dst, attr = [], [], []
         rest = own.copy()
@@ -354,8 +361,13 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
             for state, n in ((0, hits[:, j]), (1, degree[:, j] - hits[:, j])):
                 src.append(np.full(m, agg_offsets[j] + state))
                 dst.append(np.arange(m))
-                share = np.divide(n, d, out=np.zeros(m), where=d > 0)
-                attr.append(np.stack([np.ones(m), share, np.log1p(n)], axis=1))
+                feat = np.zeros((m, EDGE_DIM))
+                feat[:, 0] = 1.0
+                if kinds[j] == SHARE:
+                    feat[:, 1] = np.divide(n, d, out=np.zeros(m), where=d > 0)
+                elif state == 0:
+                    feat[:, 2] = np.log1p(n)
+                attr.append(feat)
         if not src:
             return np.zeros((2, 0), np.int64), np.zeros((0, EDGE_DIM))
         return np.stack([np.concatenate(src), np.concatenate(dst)]), np.concatenate(attr)
@@ -463,7 +475,8 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
         cards_own = [len(schema.entities[m.entity][p]) for p in m.parents]
         own_offsets = [int(offsets[index[(m.entity, p)]]) for p in m.parents]
         agg_offsets = [int(offsets[agg_node[(i, j)]]) for j in range(len(m.aggregates))]
-        return self._family_edges(own, hits, degree, cards_own, own_offsets, agg_offsets)
+        return self._family_edges(own, hits, degree, cards_own, own_offsets, agg_offsets,
+                                  [g.kind for g in m.aggregates])
 
     @torch.no_grad()
     def _conditionals(self, model: InterventionalVGAE, i: int, edges: np.ndarray, attr: np.ndarray, m: int,
