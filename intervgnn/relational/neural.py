@@ -11,8 +11,10 @@ per aggregate of a mechanism, with two states (a related instance in the
 aggregate's state, or in another). An instance's family is a small graph:
 a message from each own parent's value, and from each aggregate two
 messages, one from the related instances in the state and one from the
-others, each message's edge features saying how many related instances it
-stands for (their share, log(1 + count) and that it is an aggregate). This
+others, each message's edge features saying that it is an aggregate's and
+what of the related instances it stands for the mechanism reads: their
+share for a share aggregate, log(1 + count) of those in the state for a
+count aggregate (the template declares the rest irrelevant). This
 is message passing along the relationships with the related instances'
 one-hot states summed per state first, so any number of related instances
 (none included) makes a message of the same size; an
