@@ -183,6 +183,11 @@ def cmd_estimate(args) -> int:
                 return EXIT_NOT_IDENTIFIABLE
             print(exc.identification.describe())
             print()
+            arm = est.experimental_answer(args.target, do=do, given=given) if do else None
+            if arm is not None:
+                print(f"{arm.experimental_rows} experimental rows set exactly {', '.join(f'{v}={s}' for v, s in do.items())}: "
+                      "--interval answers from them alone.")
+                print()
             if can_answer:
                 print("No estimate is given for a query that is not identifiable. Pass --allow-unidentified to see the")
                 print("neural model's number anyway; it will be marked NOT IDENTIFIED.")

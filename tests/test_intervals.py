@@ -229,3 +229,97 @@ intervals: {{level: 0.9, draws: 60}}
         with pytest.raises(ConfigError, match=re.escape(message)):
             parse_config({**base, **extra})
     assert load_config(config).interval_level == 0.9
+
+
+def _bow_rows(arm_rows: int, seed: int = 0):
+    # cancer's rows with a hidden common cause declared between Smoker and Cancer (the bow-arc: P(Cancer |
+    # do(Smoker)) is not identifiable from observational rows), plus experiments that set Smoker
+    net = ig.load_network("cancer")
+    graph = ig.CausalGraph([("Smoker", "Cancer"), ("Pollution", "Cancer"), ("Cancer", "Xray"),
+                            ("Cancer", "Dyspnoea")], bidirected=[("Smoker", "Cancer")])
+    parts = [net.sample(800, seed=seed),
+             net.sample(arm_rows, do={"Smoker": "True"}, seed=seed + 1),
+             net.sample(arm_rows, do={"Smoker": "False"}, seed=seed + 2),
+             # rows of another experiment (Smoker and Pollution both set) answer another query: not counted
+             net.sample(50, do={"Smoker": "True", "Pollution": "high"}, seed=seed + 3)]
+    return net, graph, ig.Table.concat(parts)
+
+
+def test_experimental_rows_give_a_query_that_is_not_identifiable_its_interval():
+    from scipy.stats import beta
+
+    net, graph, rows = _bow_rows(60)
+    est = PluginEstimator().fit(rows, graph)
+    d = est.query_interval("Cancer", do={"Smoker": "True"}, draws=40_000, seed=3)
+    # the rows counted by hand: Smoker set alone, to True
+    smoker, cancer = rows.variables.index("Smoker"), rows.variables.index("Cancer")
+    alone = rows.intervened[:, smoker] & (rows.intervened.sum(axis=1) == 1)
+    arm = alone & (rows.codes[:, smoker] == rows.states["Smoker"].index("True"))
+    n = int(arm.sum())
+    k = int((rows.codes[arm, cancer] == rows.states["Cancer"].index("True")).sum())
+    assert n == 60 and d.experimental_rows == 60 and "from the 60 experimental rows that set Smoker=True" in d.description
+    # Jeffreys interval for a proportion (Brown, Cai & DasGupta 2001, Statistical Science 16:101-133; from
+    # memory): the Beta(k + 1/2, n - k + 1/2) quantiles, here from scipy; the posterior mean (k + 1/2) / (n + 1)
+    assert d["True"] == pytest.approx((k + 0.5) / (n + 1))
+    t = rows.states["Cancer"].index("True")
+    assert d.interval.lower[t] == pytest.approx(beta.ppf(0.025, k + 0.5, n - k + 0.5), abs=0.004)
+    assert d.interval.upper[t] == pytest.approx(beta.ppf(0.975, k + 0.5, n - k + 0.5), abs=0.004)
+    assert d.interval.method == "experimental posterior" and "not identifiable from the observational rows" in d.description
+    # the neural estimator, which refuses the query by default, gets the same answer from the same rows
+    neural = NeuralEstimator(seed=0, steps=3, latent_steps=20, latent_restarts=1).fit(rows, graph)
+    nd = neural.query_interval("Cancer", do={"Smoker": "True"}, draws=40_000, seed=3)
+    np.testing.assert_allclose(nd.probs, d.probs)
+    np.testing.assert_allclose(nd.interval.lower, d.interval.lower)
+
+
+def test_the_experimental_interval_narrows_only_as_experimental_rows_accumulate():
+    widths = {}
+    for arm_rows in (30, 300):
+        net, graph, rows = _bow_rows(arm_rows)
+        d = PluginEstimator().fit(rows, graph).query_interval("Cancer", do={"Smoker": "True"})
+        widths[arm_rows] = float(d.interval.upper[0] - d.interval.lower[0])
+        truth = net.query("Cancer", do={"Smoker": "True"})
+        assert ((d.interval.lower <= truth.probs) & (truth.probs <= d.interval.upper)).all()
+    # the Jeffreys interval's width falls about as 1 / sqrt(n) (common practice, no source): ten times the rows,
+    # about a third of the width
+    assert 2.0 < widths[30] / widths[300] < 4.5
+
+
+def test_an_effect_from_experimental_rows_and_a_refusal_without_them():
+    from intervgnn import NotIdentified
+
+    _, graph, rows = _bow_rows(200)
+    est = PluginEstimator().fit(rows, graph)
+    e = est.effect_interval("Cancer", "Smoker", "True", "False", "True", draws=4000, seed=0)
+    a = est.experimental_answer("Cancer", do={"Smoker": "True"})
+    b = est.experimental_answer("Cancer", do={"Smoker": "False"})
+    assert e.estimate == pytest.approx(a["True"] - b["True"])
+    assert "from 200/200 experimental rows alone" in e.description
+    assert e.lower < e.estimate < e.upper and 0.0 <= e.positive <= 1.0
+    # no experiment set Pollution alone: still refused, with the hedge
+    with pytest.raises(NotIdentified):
+        est.query_interval("Cancer", do={"Smoker": "True", "Pollution": "low"})
+    observational = PluginEstimator().fit(rows.observational_rows(), graph)
+    assert observational.experimental_answer("Cancer", do={"Smoker": "True"}) is None
+    with pytest.raises(NotIdentified):
+        observational.effect_interval("Cancer", "Smoker", "True", "False", "True")
+
+
+def test_cli_answers_a_query_that_is_not_identifiable_from_its_experimental_rows(tmp_path, capsys):
+    from intervgnn.cli import CAUTION, EXIT_NOT_IDENTIFIABLE, main
+
+    _, _, rows = _bow_rows(80)
+    rows.to_csv(tmp_path / "rows.csv")
+    (tmp_path / "g.yaml").write_text(
+        "edges:\n  - [Smoker, Cancer]\n  - [Pollution, Cancer]\n  - [Cancer, Xray]\n  - [Cancer, Dyspnoea]\n"
+        "confounded:\n  - [Smoker, Cancer]\n"
+    )
+    base = ["estimate", "--data", str(tmp_path / "rows.csv"), "--graph", str(tmp_path / "g.yaml"),
+            "--estimator", "plugin", "--target", "Cancer", "--do", "Smoker=True"]
+    assert main(base) == EXIT_NOT_IDENTIFIABLE
+    out = capsys.readouterr().out
+    assert "80 experimental rows set exactly Smoker=True: --interval answers from them alone." in out
+    assert main(base + ["--interval"]) == 0
+    out = capsys.readouterr().out
+    assert "from the 80 experimental rows that set Smoker=True alone" in out and "95% interval" in out
+    assert "experimental posterior draws" in out and CAUTION in out

@@ -159,12 +159,25 @@ class Estimator:
             Before ``fit`` (or a model loaded without its rows).
         NotIdentified
             A query that is not identifiable on the diagram has no
-            data-driven interval (even where the estimator answers it from
-            its model's assumptions): the error carries the reason (the
-            hedge).
+            data-driven interval from observational rows (even where the
+            estimator answers it from its model's assumptions): the error
+            carries the reason (the hedge). Where the fitted rows include
+            experimental rows that set exactly the query's ``do`` variables
+            to its states, the answer and its interval come from those rows
+            alone instead (see :meth:`experimental_answer`); the error is
+            raised only where there are none.
         """
-        point = self.query(target, do=do, given=given)
-        self._refuse_unidentified_interval(target, do, given)
+        from ..errors import NotIdentified
+
+        try:
+            point = self.query(target, do=do, given=given)
+            self._refuse_unidentified_interval(target, do, given)
+        except NotIdentified:
+            arm = self.experimental_answer(target, do=do, given=given, level=level, draws=draws, seed=seed)
+            if arm is None:
+                raise
+            arm.description += " (not identifiable from the observational rows)"
+            return arm
         samples = self._interval_samples([(target, do, given)], level, draws, seed)[0]
         return Distribution(
             point.variables, point.states, point.probs, description=point.description,
@@ -194,21 +207,102 @@ class Estimator:
         QueryError
             Unknown variable or state; a bad ``level``, ``draws`` or ``seed``.
         """
+        from ..errors import NotIdentified
+
         self._check_fitted()
         check_state(self.states_, check_variable(self.states_, outcome, "target"), state)
         k = self.states_[outcome].index(state)
-        estimate = self.effect(outcome, treatment, a, b, state, given=given)
-        self._refuse_unidentified_interval(outcome, {treatment: a}, given)
-        pa, pb = self._interval_samples(
-            [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)], level, draws, seed
-        )
         text = f"P({outcome}={state} | do({treatment}={a})) - P({outcome}={state} | do({treatment}={b}))"
         if given:
             text = text.replace(")) -", f"), {', '.join(f'{v}={s}' for v, s in given.items())}) -", 1)
+        try:
+            estimate = self.effect(outcome, treatment, a, b, state, given=given)
+            self._refuse_unidentified_interval(outcome, {treatment: a}, given)
+        except NotIdentified:
+            arms = [self.experimental_answer(outcome, do={treatment: x}, given=given, level=level, draws=draws,
+                                             seed=seed + j) for j, x in enumerate((a, b))]
+            if any(arm is None for arm in arms):
+                raise
+            pa, pb = (arm.interval.samples[:, k] for arm in arms)
+            n = "/".join(str(arm.experimental_rows) for arm in arms)
+            return EffectEstimate(f"{text}, from {n} experimental rows alone (not identifiable from observational rows)",
+                                  arms[0].probs[k] - arms[1].probs[k], Interval(level, pa - pb, arms[0].interval.method))
+        pa, pb = self._interval_samples(
+            [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)], level, draws, seed
+        )
         return EffectEstimate(text, estimate, Interval(level, pa[:, k] - pb[:, k], self._interval_method()))
 
     def _interval_method(self) -> str:
         return "bootstrap"
+
+    #: draws from the experimental rows' posterior when an interval is asked without ``draws``
+    experimental_draws = 2000
+
+    def experimental_answer(
+        self,
+        target: str | Sequence[str],
+        do: Mapping[str, str] | None = None,
+        given: Mapping[str, str] | None = None,
+        level: float = 0.95,
+        draws: int | None = None,
+        seed: int = 0,
+    ) -> Distribution | None:
+        """P(target | do(...), given) from the fitted rows that ran exactly this experiment, or None.
+
+        The rows counted are those where exactly the ``do`` variables were
+        set by intervention (no other variable), each to the query's state,
+        and where ``given`` holds. Randomised rows answer a do-query by
+        plain counting whatever the hidden causes: this is the answer a
+        query that is not identifiable from observational rows can still
+        get, and its interval narrows only as such rows accumulate. The
+        answer is the posterior mean of the target's joint states under a
+        Dirichlet with the Jeffreys prior (1/2 per state); the interval the
+        central ``level`` interval of ``draws`` posterior draws (default
+        2,000). For one binary target this is the Jeffreys interval for a
+        proportion, recommended for its coverage by Brown, Cai & DasGupta
+        (2001, Statistical Science 16:101-133; from memory). The returned
+        distribution has an ``experimental_rows`` attribute, the number of
+        rows it rests on. None where the fitted rows hold no such row (or
+        are not kept: a loaded model).
+
+        Raises
+        ------
+        QueryError
+            As :meth:`query`; a bad ``level``, ``draws`` or ``seed``; a query without ``do``.
+        """
+        self._check_fitted()
+        q = make_query(self.states_, target, do, given)
+        if not q.do:
+            raise QueryError("an experimental answer needs do=: the variables the experiment set")
+        self._check_interval_settings(level, draws, seed, least=10)
+        rows = self.__dict__.get("_fitted_rows")
+        if rows is None:
+            return None
+        table = rows[0]
+        col = {v: i for i, v in enumerate(table.variables)}
+        codes, set_ = table.codes, table.intervened
+        do_cols = [col[v] for v, _ in q.do]
+        mask = set_[:, do_cols].all(axis=1) & (set_.sum(axis=1) == len(do_cols))
+        for v, s in list(q.do) + list(q.given):
+            mask &= codes[:, col[v]] == table.states[v].index(s)
+        n = int(mask.sum())
+        if n == 0:
+            return None
+        shape = tuple(len(table.states[t]) for t in q.targets)
+        cells = np.ravel_multi_index(tuple(codes[mask, col[t]] for t in q.targets), shape)
+        params = np.bincount(cells, minlength=int(np.prod(shape))).astype(np.float64) + 0.5
+        from .plugin import dirichlet_rows
+
+        draws = self.experimental_draws if draws is None else int(draws)
+        samples = dirichlet_rows(np.random.default_rng(check_seed(seed)), params, draws).reshape((draws,) + shape)
+        where = ", ".join(f"{v}={s}" for v, s in q.do)
+        out = Distribution(
+            q.targets, [table.states[t] for t in q.targets], (params / params.sum()).reshape(shape),
+            description=f"{q.describe()}, from the {n} experimental rows that set {where} alone",
+            identified=True, interval=Interval(level, samples, "experimental posterior"),
+        )
+        out.experimental_rows = n
+        return out
 
     def _refuse_unidentified_interval(self, target, do, given) -> None:
         q = make_query(self.states_, target, do, given)
