@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import dataclasses
 import json
+import os
 import sys
 from collections.abc import Sequence
 
@@ -147,6 +148,8 @@ def cmd_estimate(args) -> int:
     check_seed(args.seed, name="--seed")
     do = _assignments(args.do, "--do")
     given = _assignments(args.given, "--given")
+    if args.csv:
+        _check_writable(args.csv, "--csv")
     truth = None
     if args.model:
         graph = load_graph(args.graph).graph if args.graph else None
@@ -206,6 +209,8 @@ def cmd_estimate(args) -> int:
             print("No interval is given: the query is not identifiable, so no amount of these rows narrows it down;")
             print("the number below rests on the neural model's assumptions alone.")
             print()
+    if args.csv:
+        dist.to_csv(args.csv)
     if args.json:
         payload = {"estimate": dist.to_dict(), "estimator": label, "caution": CAUTION}
         if truth is not None:
@@ -221,6 +226,17 @@ def cmd_estimate(args) -> int:
     print()
     print(CAUTION)
     return 0
+
+
+def _check_writable(path: str, option: str) -> None:
+    """Refuse, before any fitting, an output file whose folder is missing or not writable."""
+    folder = os.path.dirname(os.path.abspath(path))
+    if os.path.isdir(path):
+        raise IntervgnnError(f"{option}: '{path}' is a folder; give a file name")
+    if not os.path.isdir(folder):
+        raise IntervgnnError(f"{option}: cannot write '{path}': the folder '{folder}' does not exist")
+    if not os.access(folder, os.W_OK):
+        raise IntervgnnError(f"{option}: cannot write '{path}': the folder '{folder}' is not writable")
 
 
 def _answer_with_interval(est, args, do, given):
@@ -242,6 +258,8 @@ def _print_effect(est, args, given, label) -> int:
     level = 0.95 if args.interval is None else args.interval
     effect = est.effect_interval(args.target[0], treatment.strip(), states[0], states[1], args.state, given=given,
                                  level=level, draws=args.draws, seed=args.seed)
+    if args.csv:
+        effect.to_csv(args.csv)
     if args.json:
         print(json.dumps({"effect": effect.to_dict(), "estimator": label, "caution": CAUTION}, indent=2))
         return 0
@@ -555,6 +573,8 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--state", help="with --effect: the target's state compared")
     s.add_argument("--quiet", action="store_true", help="no progress bar")
     s.add_argument("--json", action="store_true")
+    s.add_argument("--csv", metavar="FILE", help="also write the answer (every state, with the interval's bounds "
+                   "when asked) or the effect to FILE as CSV")
     s.set_defaults(func=cmd_estimate)
 
     s = sub.add_parser("run", help="run an evaluation sweep from a YAML config and write tables, plots and a report")

@@ -92,6 +92,14 @@ class EffectEstimate:
                 "upper": self.upper, "method": iv.method, "draws": iv.draws, "probability_positive": self.positive,
                 "interval_excludes_zero": self.excludes_zero}
 
+    def to_csv(self, path) -> None:
+        """Write the contrast as a CSV file (a header and one row: the fields of :meth:`to_dict`).
+
+        ``path`` is a file path or an open text file.
+        """
+        d = self.to_dict()
+        _write_csv(path, list(d), [[d[k] for k in d]])
+
     def __str__(self) -> str:
         iv = self.interval
         side = ("excludes zero" if self.excludes_zero else "includes zero")
@@ -227,6 +235,33 @@ class Distribution:
             **({"interval": self.interval.to_dict()} if self.interval is not None else {}),
         }
 
+    def to_csv(self, path) -> None:
+        """Write the distribution as a CSV file: one row per joint state, every entry listed.
+
+        Columns: one per variable (the state), ``probability``, and with an
+        interval ``lower``, ``upper``, ``level`` and ``method``. ``path`` is
+        a file path or an open text file.
+
+        Examples
+        --------
+        >>> import io
+        >>> out = io.StringIO()
+        >>> Distribution(["Pump"], [["day", "night"]], [0.25, 0.75]).to_csv(out)
+        >>> print(out.getvalue().strip())
+        Pump,probability
+        day,0.25
+        night,0.75
+        """
+        iv = self.interval
+        header = list(self.variables) + ["probability"] + (["lower", "upper", "level", "method"] if iv else [])
+        rows = []
+        for j, (combo, p) in enumerate(self.items()):
+            row = list(combo) + [repr(float(p))]
+            if iv is not None:
+                row += [repr(float(iv.lower.reshape(-1)[j])), repr(float(iv.upper.reshape(-1)[j])), iv.level, iv.method]
+            rows.append(row)
+        _write_csv(path, header, rows)
+
     def format(self, digits: int = 4, max_rows: int | None = 50, show: int = 20) -> str:
         """The distribution as an aligned text table.
 
@@ -311,3 +346,18 @@ class Distribution:
         )
 
     __hash__ = None  # type: ignore[assignment]
+
+
+def _write_csv(path, header: list, rows: list) -> None:
+    import csv
+
+    def emit(fh):
+        w = csv.writer(fh, lineterminator="\n")
+        w.writerow(header)
+        w.writerows(rows)
+
+    if hasattr(path, "write"):
+        emit(path)
+    else:
+        with open(path, "w", newline="", encoding="utf-8") as fh:
+            emit(fh)

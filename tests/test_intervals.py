@@ -323,3 +323,33 @@ def test_cli_answers_a_query_that_is_not_identifiable_from_its_experimental_rows
     out = capsys.readouterr().out
     assert "from the 80 experimental rows that set Smoker=True alone" in out and "95% interval" in out
     assert "experimental posterior draws" in out and CAUTION in out
+
+
+def test_csv_carries_the_bounds(tmp_path, capsys):
+    import csv
+
+    from intervgnn.cli import main
+
+    net = ig.load_network("cancer")
+    est = PluginEstimator().fit(net.sample(1500, seed=0), net.graph)
+    d = est.query_interval("Dyspnoea", do={"Smoker": "True"}, draws=100)
+    d.to_csv(tmp_path / "d.csv")
+    with open(tmp_path / "d.csv", newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    assert [r["Dyspnoea"] for r in rows] == ["True", "False"]
+    for r, p, lo, hi in zip(rows, d.probs, d.interval.lower, d.interval.upper):
+        assert float(r["probability"]) == p and float(r["lower"]) == lo and float(r["upper"]) == hi
+        assert r["level"] == "0.95" and r["method"] == "posterior"
+    e = est.effect_interval("Dyspnoea", "Smoker", "True", "False", "True", draws=100)
+    e.to_csv(tmp_path / "e.csv")
+    with open(tmp_path / "e.csv", newline="") as fh:
+        (row,) = list(csv.DictReader(fh))
+    assert float(row["estimate"]) == e.estimate and row["interval_excludes_zero"] == str(e.excludes_zero)
+    # the command line writes the same, and refuses an unwritable file before fitting
+    base = ["estimate", "--network", "cancer", "--rows", "1500", "--estimator", "plugin", "--target", "Dyspnoea"]
+    assert main(base + ["--do", "Smoker=True", "--interval", "--csv", str(tmp_path / "c.csv")]) == 0
+    capsys.readouterr()
+    header = (tmp_path / "c.csv").read_text().splitlines()[0]
+    assert header == "Dyspnoea,probability,lower,upper,level,method"
+    assert main(base + ["--do", "Smoker=True", "--csv", str(tmp_path / "missing" / "c.csv")]) == 2
+    assert "--csv: cannot write" in capsys.readouterr().err
