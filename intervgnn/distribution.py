@@ -31,15 +31,21 @@ class Interval:
         their Dirichlet posterior, each set answered exactly).
     samples : numpy.ndarray
         ``[draws, *shape]``: the answers the bounds are quantiles of.
+
+    ``include``, if given (the shape of the bounds), widens the bounds to
+    contain it: the posterior intervals pass the counts-only answer there.
     """
 
-    def __init__(self, level: float, samples, method: str):
+    def __init__(self, level: float, samples, method: str, include=None):
         samples = np.asarray(samples, dtype=np.float64)
         self.level = float(level)
         self.method = method
         self.samples = samples
         tail = (1.0 - self.level) / 2.0
         self.lower, self.upper = np.quantile(samples, [tail, 1.0 - tail], axis=0)
+        if include is not None:  # bounds widened to contain these values (see Estimator.query_interval)
+            include = np.asarray(include, dtype=np.float64)
+            self.lower, self.upper = np.minimum(self.lower, include), np.maximum(self.upper, include)
         for a in (self.samples, self.lower, self.upper):
             a.setflags(write=False)
 

@@ -353,3 +353,28 @@ def test_csv_carries_the_bounds(tmp_path, capsys):
     assert header == "Dyspnoea,probability,lower,upper,level,method"
     assert main(base + ["--do", "Smoker=True", "--csv", str(tmp_path / "missing" / "c.csv")]) == 2
     assert "--csv: cannot write" in capsys.readouterr().err
+
+
+def test_a_probability_the_counts_make_zero_keeps_zero_inside_its_interval():
+    # Pump -> Alarm where a stopped pump never raises the alarm in the rows (and the network: a structural
+    # zero). Every posterior draw is strictly inside the simplex, so its quantiles alone would exclude 0; the
+    # bound is widened to the counts-only answer, 0 -- the modified Jeffreys rule for one proportion, lower
+    # bound 0 when no success is seen (Brown, Cai & DasGupta 2001, Statistical Science 16:101-133; from memory)
+    from intervgnn.bn.network import CausalNetwork
+
+    graph = ig.CausalGraph([("Pump", "Alarm")])
+    states = {"Pump": ["running", "stopped"], "Alarm": ["on", "off"]}
+    cpts = {"Pump": np.array([0.7, 0.3]), "Alarm": np.array([[0.2, 0.8], [0.0, 1.0]])}
+    net = CausalNetwork(graph, states, cpts)
+    rows = net.sample(400, seed=0)
+    for est in (PluginEstimator(), NeuralEstimator(seed=0, steps=5)):
+        est.fit(rows, graph)
+        d = est.query_interval("Alarm", do={"Pump": "stopped"}, draws=200)
+        assert d.interval.samples[:, 0].min() > 0.0  # no draw reaches the boundary
+        assert d.interval.lower[0] == 0.0 and d.interval.upper[1] == 1.0
+        assert 0.0 < d.interval.upper[0] < 0.05
+        # an answer inside the simplex keeps its quantile bounds
+        r = est.query_interval("Alarm", do={"Pump": "running"}, draws=200)
+        np.testing.assert_allclose(r.interval.lower, np.quantile(r.interval.samples, 0.025, axis=0))
+        e = est.effect_interval("Alarm", "Pump", "running", "stopped", "on", draws=200)
+        assert e.lower > 0.1 and e.excludes_zero

@@ -9,7 +9,8 @@ query), overall and on the confounded queries (naive and causal answers
 differ by more than 0.02 TV). Printed per estimator, network and row count:
 coverage, its standard error, the share of the misses that are
 probabilities exactly 0 or 1 in the network (a posterior never reaches
-them), confounded coverage, mean width; then the
+them), confounded coverage, mean width, and the query pattern missed on
+most seeds where that is a quarter of them or more; then the
 overall figures, and
 the time of an interval answer against a point answer (plug-in on alarm at
 10,000 rows) and of the neural bootstrap on alarm at 10,000 rows.
@@ -76,7 +77,7 @@ def main():
             for est_name in args.estimators:
                 hits, conf_hits, widths, t0 = [], [], [], time.perf_counter()
                 edge_misses = 0  # misses of probabilities exactly 0 or 1 in the network
-                per_seed = []
+                per_seed, missed = [], {}  # missed: seeds on which a query pattern missed somewhere
                 for seed in args.seeds:
                     first = len(hits)
                     rows = net.sample(n, seed=seed)
@@ -92,6 +93,8 @@ def main():
                         c, w = covered(d, q.exact)
                         p = np.asarray(q.exact.probs).reshape(-1)
                         edge_misses += int(((p == 0.0) | (p == 1.0))[~c].sum())
+                        text = f"{'/'.join(q.target)} | do({', '.join(f'{v}={s}' for v, s in q.do_dict.items())})"
+                        missed[text] = missed.get(text, 0) + int(not c.all())
                         hits.append(c)
                         widths.append(w)
                         if q.confounded:
@@ -111,6 +114,9 @@ def main():
                                 "width": width, "seconds": seconds})
                 print(f"{est_name:<8} {name:<22} {n:>7,} {len(queries):>7} {cov:>9.3f} {se:>6.3f} {edge:>7.2f} {conf:>9.3f} {width:>7.4f} "
                       f"{seconds:>6.1f}", flush=True)
+                worst = max(missed, key=missed.get)
+                if missed[worst] * 4 >= len(args.seeds):  # a pattern missing on a quarter of the seeds or more
+                    print(f"{'':<8} most missed: {worst}, on {missed[worst]} of {len(args.seeds)} seeds")
     print()
     for est_name in args.estimators:
         mine = [r for r in records if r["estimator"] == est_name]

@@ -179,9 +179,10 @@ class Estimator:
             arm.description += " (not identifiable from the observational rows)"
             return arm
         samples = self._interval_samples([(target, do, given)], level, draws, seed)[0]
+        include = self._interval_include([(target, do, given)])[0]
         return Distribution(
             point.variables, point.states, point.probs, description=point.description,
-            identified=point.identified, interval=Interval(level, samples, self._interval_method()),
+            identified=point.identified, interval=Interval(level, samples, self._interval_method(), include),
         )
 
     def effect_interval(
@@ -227,13 +228,48 @@ class Estimator:
             n = "/".join(str(arm.experimental_rows) for arm in arms)
             return EffectEstimate(f"{text}, from {n} experimental rows alone (not identifiable from observational rows)",
                                   arms[0].probs[k] - arms[1].probs[k], Interval(level, pa - pb, arms[0].interval.method))
-        pa, pb = self._interval_samples(
-            [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)], level, draws, seed
-        )
-        return EffectEstimate(text, estimate, Interval(level, pa[:, k] - pb[:, k], self._interval_method()))
+        pair = [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)]
+        pa, pb = self._interval_samples(pair, level, draws, seed)
+        ia, ib = self._interval_include(pair)
+        include = None if ia is None or ib is None else ia[k] - ib[k]
+        return EffectEstimate(text, estimate, Interval(level, pa[:, k] - pb[:, k], self._interval_method(), include))
 
     def _interval_method(self) -> str:
         return "bootstrap"
+
+    def _interval_include(self, queries) -> list:
+        """Per (target, do, given): values the interval's bounds are widened to contain, or None (default: none)."""
+        return [None] * len(queries)
+
+    def _counts_only_answers(self, queries, cpts: Mapping[str, np.ndarray]) -> list:
+        """The answers of the fitted network with ``cpts`` in place of its own (None where the evidence has probability zero).
+
+        The posterior intervals pass the counts-only (unsmoothed) CPTs here:
+        their answer is the interval's boundary rule. A probability the
+        counts make exactly 0 or 1 (a state never seen in the rows that
+        decide it) is one that no posterior draw reaches, since every drawn
+        row is strictly inside the simplex; the bounds are widened to
+        contain the counts-only answer, which for one proportion is the
+        modified Jeffreys interval's rule, lower bound 0 when no success is
+        seen and upper bound 1 when no failure is (Brown, Cai & DasGupta
+        2001, Statistical Science 16:101-133; from memory).
+        """
+        from ..errors import ZeroEvidenceError
+
+        engine = self.network_._engine
+        out = []
+        for target, do, given in queries:
+            q = make_query(self.states_, target, do, given)
+            codes = {v: self.states_[v].index(s) for v, s in q.do}
+            evidence = {v: self.states_[v].index(s) for v, s in q.given}
+            plan = engine.plan(q.targets, tuple(codes), tuple(evidence))
+            try:
+                arr = engine.query_array_batch(q.targets, {v: cpts[v][None] for v in plan.factor_vars}, codes, evidence)
+            except ZeroEvidenceError:
+                out.append(None)
+            else:
+                out.append(arr[0])
+        return out
 
     #: draws from the experimental rows' posterior when an interval is asked without ``draws``
     experimental_draws = 2000

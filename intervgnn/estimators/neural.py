@@ -565,6 +565,16 @@ class NeuralEstimator(ChecksIdentification, Estimator):
     def _interval_method(self) -> str:
         return "posterior" if self._posterior_ready() else "bootstrap"
 
+    def _interval_include(self, queries) -> list:
+        """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""
+        if not self._posterior_ready():
+            return [None] * len(queries)
+        cpts = {}
+        for v, (counts, _, _, shape) in self._posterior.items():
+            seen = counts.sum(axis=1, keepdims=True)
+            cpts[v] = np.divide(counts, seen, out=np.full(counts.shape, 1.0 / shape[-1]), where=seen > 0).reshape(shape)
+        return self._counts_only_answers(queries, cpts)
+
     def _interval_samples(self, queries, level, draws, seed) -> list[np.ndarray]:
         """Answers under CPT sets drawn from the posterior the answer is the mean of.
 

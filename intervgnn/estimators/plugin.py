@@ -96,7 +96,10 @@ def loo_alpha(counts: np.ndarray, grid=AUTO_ALPHAS) -> float:
     return best
 
 
-def count_cpts(table: Table, graph: CausalGraph, alpha, observational=(), dirichlet: dict | None = None) -> dict[str, np.ndarray]:
+def count_cpts(
+    table: Table, graph: CausalGraph, alpha, observational=(), dirichlet: dict | None = None,
+    counts_only: dict | None = None,
+) -> dict[str, np.ndarray]:
     """Smoothed CPTs ``(count + alpha) / (row total + alpha * k)``, axes ``(*parents, v)``.
 
     A row counts towards a variable's CPT only where that variable was not
@@ -107,7 +110,9 @@ def count_cpts(table: Table, graph: CausalGraph, alpha, observational=(), dirich
     picks, per variable, the value of :data:`AUTO_ALPHAS` with the best
     leave-one-out log-likelihood. ``dirichlet``, if given, receives per
     variable the rows' posterior Dirichlet parameters ``count + alpha``
-    (all ones for a row never seen with ``alpha = 0``), CPT-shaped.
+    (all ones for a row never seen with ``alpha = 0``), CPT-shaped;
+    ``counts_only``, if given, the unsmoothed CPTs (count / row total, the
+    uniform row where never seen).
     """
     states = table.states
     cpts = {}
@@ -117,6 +122,10 @@ def count_cpts(table: Table, graph: CausalGraph, alpha, observational=(), dirich
         counts = count_table(table, graph, v, plain if v in observational else None)
         k = counts.shape[1]
         a = loo_alpha(counts) if alpha == "auto" else float(alpha)
+        if counts_only is not None:
+            seen = counts.sum(axis=1, keepdims=True)
+            raw = np.divide(counts, seen, out=np.full(counts.shape, 1.0 / k), where=seen > 0)
+            counts_only[v] = raw.reshape([len(states[p]) for p in graph.parents(v)] + [k])
         counts += a
         totals = counts.sum(axis=1, keepdims=True)
         empty = totals[:, 0] <= 0
@@ -253,7 +262,9 @@ class PluginEstimator(ChecksIdentification, Estimator):
                 + (", ..." if len(confounded) > 5 else "")
             )
         self._dirichlet = {}
-        cpts = count_cpts(table, factors, self.alpha, observational=confounded, dirichlet=self._dirichlet)
+        self._counts_only = {}
+        cpts = count_cpts(table, factors, self.alpha, observational=confounded, dirichlet=self._dirichlet,
+                          counts_only=self._counts_only)
         self.graph_ = graph
         self.states_ = states
         self.network_ = CausalNetwork(factors, states, cpts, name="plug-in")
@@ -285,6 +296,12 @@ class PluginEstimator(ChecksIdentification, Estimator):
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
         return self._posterior_answers(queries, draws, seed, lambda rng, v, n: dirichlet_rows(rng, self._dirichlet[v], n))
+
+    def _interval_include(self, queries) -> list:
+        """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""
+        if self._hidden():
+            return [None] * len(queries)
+        return self._counts_only_answers(queries, self._counts_only)
 
     def _answer(self, q: Query):
         ident = self.identification(q)
