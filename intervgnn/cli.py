@@ -186,9 +186,10 @@ def cmd_estimate(args) -> int:
                 return EXIT_NOT_IDENTIFIABLE
             print(exc.identification.describe())
             print()
-            arm = est.experimental_answer(args.target, do=do, given=given) if do else None
-            if arm is not None:
-                print(f"{arm.experimental_rows} experimental rows set exactly {', '.join(f'{v}={s}' for v, s in do.items())}: "
+            n = est.experimental_rows(do, given) if do else 0
+            if n:
+                have = f" and have {', '.join(f'{v}={s}' for v, s in given.items())}" if given else ""
+                print(f"{n} experimental rows set exactly {', '.join(f'{v}={s}' for v, s in do.items())}{have}: "
                       "--interval answers from them alone.")
                 print()
             if can_answer:

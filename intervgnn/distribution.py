@@ -33,7 +33,8 @@ class Interval:
         ``[draws, *shape]``: the answers the bounds are quantiles of.
 
     ``include``, if given (the shape of the bounds), widens the bounds to
-    contain it: the posterior intervals pass the counts-only answer there.
+    contain it where it is not NaN: the posterior intervals pass the
+    probabilities the counts alone make exactly 0 or 1 there.
     """
 
     def __init__(self, level: float, samples, method: str, include=None):
@@ -43,9 +44,9 @@ class Interval:
         self.samples = samples
         tail = (1.0 - self.level) / 2.0
         self.lower, self.upper = np.quantile(samples, [tail, 1.0 - tail], axis=0)
-        if include is not None:  # bounds widened to contain these values (see Estimator.query_interval)
+        if include is not None:  # bounds widened to contain these values where not NaN (see Estimator._counts_only_answers)
             include = np.asarray(include, dtype=np.float64)
-            self.lower, self.upper = np.minimum(self.lower, include), np.maximum(self.upper, include)
+            self.lower, self.upper = np.fmin(self.lower, include), np.fmax(self.upper, include)
         for a in (self.samples, self.lower, self.upper):
             a.setflags(write=False)
 
@@ -101,7 +102,9 @@ class EffectEstimate:
     def to_csv(self, path) -> None:
         """Write the contrast as a CSV file (a header and one row: the fields of :meth:`to_dict`).
 
-        ``path`` is a file path or an open text file.
+        ``path`` is a file path (written whole or not at all) or an open text
+        file; a file that cannot be written raises
+        :class:`~intervgnn.errors.WriteError`.
         """
         d = self.to_dict()
         _write_csv(path, list(d), [[d[k] for k in d]])
@@ -244,9 +247,18 @@ class Distribution:
     def to_csv(self, path) -> None:
         """Write the distribution as a CSV file: one row per joint state, every entry listed.
 
-        Columns: one per variable (the state), ``probability``, and with an
-        interval ``lower``, ``upper``, ``level`` and ``method``. ``path`` is
-        a file path or an open text file.
+        Columns: one per variable (the state), ``probability``, with an
+        interval ``lower``, ``upper``, ``level`` and ``method``, and for an
+        answer marked not identified ``identified`` (``no`` on every row).
+        ``path`` is a file path (written whole or not at all) or an open text
+        file.
+
+        Raises
+        ------
+        QueryError
+            A variable named like one of the fixed columns.
+        WriteError
+            The file cannot be written (missing folder, no permission, disk full).
 
         Examples
         --------
@@ -259,14 +271,26 @@ class Distribution:
         night,0.75
         """
         iv = self.interval
-        header = list(self.variables) + ["probability"] + (["lower", "upper", "level", "method"] if iv else [])
-        rows = []
-        for j, (combo, p) in enumerate(self.items()):
-            row = list(combo) + [repr(float(p))]
-            if iv is not None:
-                row += [repr(float(iv.lower.reshape(-1)[j])), repr(float(iv.upper.reshape(-1)[j])), iv.level, iv.method]
-            rows.append(row)
-        _write_csv(path, header, rows)
+        fixed = ["probability"] + (["lower", "upper", "level", "method"] if iv is not None else [])
+        if self.identified is False:
+            fixed.append("identified")
+        clash = [v for v in self.variables if v in fixed]
+        if clash:
+            raise QueryError(f"cannot write CSV: the variable '{clash[0]}' has the name of a fixed column "
+                             f"({', '.join(fixed)}); rename it")
+        lower = iv.lower.reshape(-1) if iv is not None else None
+        upper = iv.upper.reshape(-1) if iv is not None else None
+
+        def rows():
+            for j, (combo, p) in enumerate(self.items()):
+                row = list(combo) + [repr(float(p))]
+                if iv is not None:
+                    row += [repr(float(lower[j])), repr(float(upper[j])), iv.level, iv.method]
+                if self.identified is False:
+                    row.append("no")
+                yield row
+
+        _write_csv(path, list(self.variables) + fixed, rows())
 
     def format(self, digits: int = 4, max_rows: int | None = 50, show: int = 20) -> str:
         """The distribution as an aligned text table.
@@ -354,8 +378,10 @@ class Distribution:
     __hash__ = None  # type: ignore[assignment]
 
 
-def _write_csv(path, header: list, rows: list) -> None:
+def _write_csv(path, header: list, rows) -> None:
     import csv
+
+    from ._io import atomic_open
 
     def emit(fh):
         w = csv.writer(fh, lineterminator="\n")
@@ -365,5 +391,5 @@ def _write_csv(path, header: list, rows: list) -> None:
     if hasattr(path, "write"):
         emit(path)
     else:
-        with open(path, "w", newline="", encoding="utf-8") as fh:
+        with atomic_open(path, "w", newline="") as fh:
             emit(fh)

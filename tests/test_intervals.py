@@ -265,6 +265,11 @@ def test_experimental_rows_give_a_query_that_is_not_identifiable_its_interval():
     assert d.interval.lower[t] == pytest.approx(beta.ppf(0.025, k + 0.5, n - k + 0.5), abs=0.004)
     assert d.interval.upper[t] == pytest.approx(beta.ppf(0.975, k + 0.5, n - k + 0.5), abs=0.004)
     assert d.interval.method == "experimental posterior" and "not identifiable from the observational rows" in d.description
+    assert d.identified is None  # the experiment answers it, not the diagram
+    assert est.experimental_rows({"Smoker": "True"}) == 60
+    g = est.query_interval("Cancer", do={"Smoker": "True"}, given={"Xray": "positive"})
+    assert f"from the {g.experimental_rows} experimental rows that set Smoker=True and have Xray=positive" in g.description
+    assert g.experimental_rows == est.experimental_rows({"Smoker": "True"}, {"Xray": "positive"}) < 60
     # the neural estimator, which refuses the query by default, gets the same answer from the same rows
     neural = NeuralEstimator(seed=0, steps=3, latent_steps=20, latent_restarts=1).fit(rows, graph)
     nd = neural.query_interval("Cancer", do={"Smoker": "True"}, draws=40_000, seed=3)
@@ -296,6 +301,8 @@ def test_an_effect_from_experimental_rows_and_a_refusal_without_them():
     assert e.estimate == pytest.approx(a["True"] - b["True"])
     assert "from 200/200 experimental rows alone" in e.description
     assert e.lower < e.estimate < e.upper and 0.0 <= e.positive <= 1.0
+    same = est.effect_interval("Cancer", "Smoker", "True", "True", "True")  # one arm: exactly no effect
+    assert same.estimate == same.lower == same.upper == 0.0
     # no experiment set Pollution alone: still refused, with the hedge
     with pytest.raises(NotIdentified):
         est.query_interval("Cancer", do={"Smoker": "True", "Pollution": "low"})
@@ -373,8 +380,27 @@ def test_a_probability_the_counts_make_zero_keeps_zero_inside_its_interval():
         assert d.interval.samples[:, 0].min() > 0.0  # no draw reaches the boundary
         assert d.interval.lower[0] == 0.0 and d.interval.upper[1] == 1.0
         assert 0.0 < d.interval.upper[0] < 0.05
-        # an answer inside the simplex keeps its quantile bounds
+        # an answer the counts put inside (0, 1) keeps its quantile bounds, even where the counts-only
+        # answer lies outside them (heavy smoothing, few rows)
         r = est.query_interval("Alarm", do={"Pump": "running"}, draws=200)
         np.testing.assert_allclose(r.interval.lower, np.quantile(r.interval.samples, 0.025, axis=0))
         e = est.effect_interval("Alarm", "Pump", "running", "stopped", "on", draws=200)
         assert e.lower > 0.1 and e.excludes_zero
+    heavy = PluginEstimator(alpha=300.0).fit(rows.take(np.arange(30)), graph)
+    h = heavy.query_interval("Alarm", do={"Pump": "running"}, draws=200)
+    counts_only = heavy._counts_only_answers([("Alarm", {"Pump": "running"}, None)], heavy._counts_only)[0]
+    assert np.isnan(counts_only).all()  # not at 0 or 1: no widening
+    np.testing.assert_allclose(h.interval.upper, np.quantile(h.interval.samples, 0.975, axis=0))
+
+
+def test_csv_refuses_a_clashing_name_and_marks_an_unidentified_answer(tmp_path):
+    from intervgnn import WriteError
+
+    d = Distribution(["probability"], [["a", "b"]], [0.5, 0.5])
+    with pytest.raises(QueryError, match="the variable 'probability' has the name of a fixed column"):
+        d.to_csv(tmp_path / "x.csv")
+    u = Distribution(["Y"], [["a", "b"]], [0.5, 0.5], identified=False)
+    u.to_csv(tmp_path / "u.csv")
+    assert (tmp_path / "u.csv").read_text().splitlines() == ["Y,probability,identified", "a,0.5,no", "b,0.5,no"]
+    with pytest.raises(WriteError, match="cannot write the file"):
+        u.to_csv(tmp_path / "missing" / "u.csv")

@@ -114,8 +114,8 @@ def main():
                                 "width": width, "seconds": seconds})
                 print(f"{est_name:<8} {name:<22} {n:>7,} {len(queries):>7} {cov:>9.3f} {se:>6.3f} {edge:>7.2f} {conf:>9.3f} {width:>7.4f} "
                       f"{seconds:>6.1f}", flush=True)
-                worst = max(missed, key=missed.get)
-                if missed[worst] * 4 >= len(args.seeds):  # a pattern missing on a quarter of the seeds or more
+                worst = max(missed, key=missed.get) if missed else None
+                if worst is not None and missed[worst] * 4 >= len(args.seeds):  # a pattern missing on a quarter of the seeds or more
                     print(f"{'':<8} most missed: {worst}, on {missed[worst]} of {len(args.seeds)} seeds")
     print()
     for est_name in args.estimators:

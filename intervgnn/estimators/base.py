@@ -221,13 +221,17 @@ class Estimator:
             self._refuse_unidentified_interval(outcome, {treatment: a}, given)
         except NotIdentified:
             arms = [self.experimental_answer(outcome, do={treatment: x}, given=given, level=level, draws=draws,
-                                             seed=seed + j) for j, x in enumerate((a, b))]
+                                             seed=seed + j) for j, x in enumerate((a, b) if a != b else (a,))]
             if any(arm is None for arm in arms):
                 raise
+            arms = arms * (3 - len(arms))  # a == b: one arm, the contrast exactly 0 in every draw
+            k = arms[0].states[0].index(state)
             pa, pb = (arm.interval.samples[:, k] for arm in arms)
             n = "/".join(str(arm.experimental_rows) for arm in arms)
+            include = arms[0].boundary[k] - arms[1].boundary[k]
             return EffectEstimate(f"{text}, from {n} experimental rows alone (not identifiable from observational rows)",
-                                  arms[0].probs[k] - arms[1].probs[k], Interval(level, pa - pb, arms[0].interval.method))
+                                  arms[0].probs[k] - arms[1].probs[k],
+                                  Interval(level, pa - pb, arms[0].interval.method, include))
         pair = [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)]
         pa, pb = self._interval_samples(pair, level, draws, seed)
         ia, ib = self._interval_include(pair)
@@ -242,17 +246,18 @@ class Estimator:
         return [None] * len(queries)
 
     def _counts_only_answers(self, queries, cpts: Mapping[str, np.ndarray]) -> list:
-        """The answers of the fitted network with ``cpts`` in place of its own (None where the evidence has probability zero).
+        """Where the answer under ``cpts`` (in place of the network's own) is exactly 0 or 1: that value, NaN elsewhere.
 
-        The posterior intervals pass the counts-only (unsmoothed) CPTs here:
-        their answer is the interval's boundary rule. A probability the
-        counts make exactly 0 or 1 (a state never seen in the rows that
-        decide it) is one that no posterior draw reaches, since every drawn
-        row is strictly inside the simplex; the bounds are widened to
-        contain the counts-only answer, which for one proportion is the
-        modified Jeffreys interval's rule, lower bound 0 when no success is
-        seen and upper bound 1 when no failure is (Brown, Cai & DasGupta
-        2001, Statistical Science 16:101-133; from memory).
+        None for a query whose evidence has probability zero under ``cpts``.
+        The posterior intervals pass the counts-only (unsmoothed) CPTs here.
+        A probability the counts make exactly 0 or 1 (a state never seen in
+        the rows that decide it) is one no posterior draw reaches, since
+        every drawn row is inside the simplex; the interval's bound is
+        widened to it. This is analogous to the x = 0 and x = n part of the
+        modified Jeffreys interval for one proportion, whose lower bound is
+        0 when no success is seen and upper bound 1 when no failure is
+        (Brown, Cai & DasGupta 2001, Statistical Science 16:101-133; from
+        memory). Elsewhere the bounds are the draws' quantiles.
         """
         from ..errors import ZeroEvidenceError
 
@@ -268,7 +273,8 @@ class Estimator:
             except ZeroEvidenceError:
                 out.append(None)
             else:
-                out.append(arr[0])
+                a = arr[0]
+                out.append(np.where((a == 0.0) | (a == 1.0), a, np.nan))
         return out
 
     #: draws from the experimental rows' posterior when an interval is asked without ``draws``
@@ -296,10 +302,13 @@ class Estimator:
         central ``level`` interval of ``draws`` posterior draws (default
         2,000). For one binary target this is the Jeffreys interval for a
         proportion, recommended for its coverage by Brown, Cai & DasGupta
-        (2001, Statistical Science 16:101-133; from memory). The returned
-        distribution has an ``experimental_rows`` attribute, the number of
-        rows it rests on. None where the fitted rows hold no such row (or
-        are not kept: a loaded model).
+        (2001, Statistical Science 16:101-133; from memory), with the bounds
+        widened to 0 or 1 where the counts are (as the posterior intervals
+        are, see :meth:`_counts_only_answers`). The returned distribution
+        has an ``experimental_rows`` attribute, the number of rows it rests
+        on; its ``identified`` is None (the experiment, not the diagram,
+        answers it). None where the fitted rows hold no such row (or are
+        not kept: a loaded model).
 
         Raises
         ------
@@ -311,34 +320,79 @@ class Estimator:
         if not q.do:
             raise QueryError("an experimental answer needs do=: the variables the experiment set")
         self._check_interval_settings(level, draws, seed, least=10)
+        found = self._experimental_counts(q)
+        if found is None:
+            return None
+        table, counts = found
+        n = int(counts.sum())
+        shape = counts.shape
+        draws = self.experimental_draws if draws is None else int(draws)
+        if draws * counts.size > self._MAX_KEPT_DRAWS:
+            raise QueryError(f"{draws:,} draws of an answer of {counts.size:,} entries is too large to hold; "
+                             "ask for fewer draws or a smaller target")
+        from .plugin import dirichlet_rows
+
+        params = counts.reshape(-1) + 0.5
+        samples = dirichlet_rows(np.random.default_rng(check_seed(seed)), params, draws).reshape((draws,) + shape)
+        raw = counts / n
+        boundary = np.where((raw == 0.0) | (raw == 1.0), raw, np.nan)  # the counts-only rule at 0 and 1
+        out = Distribution(
+            q.targets, [table.states[t] for t in q.targets], (params / params.sum()).reshape(shape),
+            description=f"{q.describe()}, from the {n} experimental rows {self._experiment_text(q)} alone",
+            interval=Interval(level, samples, "experimental posterior", boundary),
+        )
+        out.experimental_rows = n
+        out.boundary = boundary
+        return out
+
+    def experimental_rows(self, do: Mapping[str, str], given: Mapping[str, str] | None = None) -> int:
+        """How many fitted rows set exactly the ``do`` variables to these states (and have ``given``); 0 if none kept.
+
+        Raises
+        ------
+        QueryError
+            An unknown variable or state.
+        """
+        self._check_fitted()
+        do, given = dict(do or {}), dict(given or {})
+        for v, s in list(do.items()) + list(given.items()):
+            check_state(self.states_, check_variable(self.states_, v, "do" if v in do else "given"), s)
+        if not do:
+            return 0
+        found = self._experimental_mask(list(do.items()), list(given.items()))
+        return 0 if found is None else int(found[1].sum())
+
+    @staticmethod
+    def _experiment_text(q: Query) -> str:
+        text = "that set " + ", ".join(f"{v}={s}" for v, s in q.do)
+        if q.given:
+            text += " and have " + ", ".join(f"{v}={s}" for v, s in q.given)
+        return text
+
+    def _experimental_mask(self, do_items, given_items):
+        """(the fitted table, a row mask: exactly the ``do`` variables set, to their states, ``given`` holding), or None."""
         rows = self.__dict__.get("_fitted_rows")
-        if rows is None:
+        if rows is None or not do_items:
             return None
         table = rows[0]
         col = {v: i for i, v in enumerate(table.variables)}
         codes, set_ = table.codes, table.intervened
-        do_cols = [col[v] for v, _ in q.do]
+        do_cols = [col[v] for v, _ in do_items]
         mask = set_[:, do_cols].all(axis=1) & (set_.sum(axis=1) == len(do_cols))
-        for v, s in list(q.do) + list(q.given):
+        for v, s in list(do_items) + list(given_items):
             mask &= codes[:, col[v]] == table.states[v].index(s)
-        n = int(mask.sum())
-        if n == 0:
-            return None
-        shape = tuple(len(table.states[t]) for t in q.targets)
-        cells = np.ravel_multi_index(tuple(codes[mask, col[t]] for t in q.targets), shape)
-        params = np.bincount(cells, minlength=int(np.prod(shape))).astype(np.float64) + 0.5
-        from .plugin import dirichlet_rows
+        return (table, mask) if mask.any() else None
 
-        draws = self.experimental_draws if draws is None else int(draws)
-        samples = dirichlet_rows(np.random.default_rng(check_seed(seed)), params, draws).reshape((draws,) + shape)
-        where = ", ".join(f"{v}={s}" for v, s in q.do)
-        out = Distribution(
-            q.targets, [table.states[t] for t in q.targets], (params / params.sum()).reshape(shape),
-            description=f"{q.describe()}, from the {n} experimental rows that set {where} alone",
-            identified=True, interval=Interval(level, samples, "experimental posterior"),
-        )
-        out.experimental_rows = n
-        return out
+    def _experimental_counts(self, q: Query):
+        """(the fitted table, counts of the target's joint states ``[*shape]``) over the matching rows, or None."""
+        found = self._experimental_mask(list(q.do), list(q.given))
+        if found is None:
+            return None
+        table, mask = found
+        col = {v: i for i, v in enumerate(table.variables)}
+        shape = tuple(len(table.states[t]) for t in q.targets)
+        cells = np.ravel_multi_index(tuple(table.codes[mask, col[t]] for t in q.targets), shape)
+        return table, np.bincount(cells, minlength=int(np.prod(shape))).astype(np.float64).reshape(shape)
 
     def _refuse_unidentified_interval(self, target, do, given) -> None:
         q = make_query(self.states_, target, do, given)

@@ -169,6 +169,8 @@ def dirichlet_draws(rng: np.random.Generator, params: np.ndarray) -> np.ndarray:
         c = 1.0 / (9.0 * a_big)
         g[big] = a_big * (1.0 - c + rng.standard_normal(a_big.size) * np.sqrt(c)) ** 3
         g[~big] = rng.standard_gamma(a_small)
+    # a gamma variate of a small shape can underflow to 0; a drawn row stays inside the simplex
+    g = np.maximum(g, np.finfo(np.float64).tiny)
     return g / g.sum(axis=-1, keepdims=True)
 
 

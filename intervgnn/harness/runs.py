@@ -246,11 +246,15 @@ def execute_run(spec: RunSpec, cfg: ExperimentConfig) -> dict:
                     try:
                         iv = est.query_interval(list(q.target), do=q.do_dict, given=q.given_dict,
                                                 level=cfg.interval_level, draws=cfg.interval_draws, seed=spec.seed)
-                    except UnsupportedQuery as exc:  # e.g. not identifiable: no data-driven interval
+                    except (UnsupportedQuery, ZeroEvidenceError) as exc:  # e.g. not identifiable: no data-driven interval
                         rec["interval"] = str(exc)[:300]
                     else:
-                        rec["lower"] = iv.interval.lower.ravel().tolist()
-                        rec["upper"] = iv.interval.upper.ravel().tolist()
+                        if iv.interval.method == "experimental posterior":
+                            # the answer came from the experimental rows, not from the estimator scored here
+                            rec["interval"] = iv.description[:300]
+                        else:
+                            rec["lower"] = iv.interval.lower.ravel().tolist()
+                            rec["upper"] = iv.interval.upper.ravel().tolist()
             records.append(rec)
         query_s = time.perf_counter() - t0
     finally:
