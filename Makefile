@@ -52,6 +52,8 @@ bench: $(VENV)/.test
 	$(PY) experiments/bench/relational_scale.py
 	$(PY) experiments/bench/interval_coverage.py --timing --out experiments/results/interval_coverage.json
 	$(PY) experiments/bench/interval_coverage.py --seeds 0 1 2 3 4 5 6 7 8 9 10 11 12 13 14 15 16 17 18 19 --out experiments/results/interval_coverage_seeds20.json
+	$(PY) experiments/bench/interval_coverage.py --networks random:nodes=10,seed=0 random:nodes=12,seed=1 random:nodes=15,seed=2 random:nodes=17,seed=3 random:nodes=20,seed=4 random:nodes=23,seed=5 random:nodes=25,seed=6 random:nodes=28,seed=7 random:nodes=31,seed=8 random:nodes=33,seed=9 --seeds 0 1 2 3 4 5 6 7 8 9
+	$(PY) experiments/bench/interval_coverage.py --networks random:nodes=12,seed=203,states=2,concentration=0.3,deterministic=0.3 random:nodes=15,seed=204,concentration=0.3,deterministic=0.3 cancer sachs --rows 300 --seeds 0 1 2 3 4 5 6 7 8 9
 
 clean:
 	rm -rf $(VENV) build *.egg-info
