@@ -49,6 +49,7 @@ bench: $(VENV)/.test
 	$(VENV)/bin/intervgnn run configs/relational-bins-seeds.yaml --output experiments/results/relational-bins-seeds
 	$(PY) experiments/bench/relational_ratios.py experiments/results/relational-bins-seeds/summary.csv --bins
 	$(PY) experiments/bench/relational_draw_check.py
+	$(PY) experiments/bench/relational_interval_coverage.py --seeds 0 1 2 3 4
 	$(PY) experiments/bench/relational_scale.py
 	$(PY) experiments/bench/interval_coverage.py --timing --out experiments/results/interval_coverage.json
 	$(PY) experiments/bench/interval_coverage.py --seeds 0 1 2 3 4 5 6 7 8 9 10 11 12 13 14 15 16 17 18 19 --out experiments/results/interval_coverage_seeds20.json

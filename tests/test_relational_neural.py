@@ -237,3 +237,40 @@ def test_the_decoder_reads_only_what_an_aggregate_declares(fitted):
         other = np.zeros((3, 1), np.int64)  # none of the related instances in the state
         e2, a2 = est._mech_edges(m, i, own, other, degree, schema, keys, agg_node, offsets)
         assert not np.allclose(est._conditionals(model, i, e2, a2, 3, seed=0)[0], p[0], atol=1e-6)
+
+
+# ---------------------------------------------------------------- intervals
+
+
+def test_relational_intervals_from_the_posterior_of_the_tied_cpts(chain, fitted):
+    from scipy.stats import beta
+
+    from intervgnn import QueryError
+
+    template, skeleton, data = chain
+    plug = RelationalPluginEstimator().fit(data, template)
+    # a root attribute: its answer is the tied row itself, whose posterior is Beta(count + alpha, ...);
+    # the interval's bounds are that Beta's quantiles (scipy as the reference; Monte Carlo error allowed)
+    q = UnitQuery(("nursery", "1", "Stock"))
+    d = plug.query_interval(q, draws=3000, seed=1)
+    n_poor, n_good = plug.counts_[("nursery", "Stock")]
+    good = d.states[0].index("good")
+    assert d.interval.lower[good] == pytest.approx(beta.ppf(0.025, n_good + 1, n_poor + 1), abs=0.004)
+    assert d.interval.upper[good] == pytest.approx(beta.ppf(0.975, n_good + 1, n_poor + 1), abs=0.004)
+    np.testing.assert_allclose(d.probs, plug.query(q).probs)
+    # every query kind gets one; the neural estimator draws from the mixture its CPTs are the mean of
+    grove = skeleton.instances["grove"][0]
+    for est in (plug, fitted):
+        unit = est.query_interval(UnitQuery(("grove", grove, "Vigour"), do={("nursery", "1", "Stock"): "good"}), seed=0)
+        assert (unit.interval.lower <= unit.interval.upper).all() and unit.interval.draws == 100
+        pop = est.query_interval(PopulationQuery("grove", "Vigour", Policy("nursery", "Stock", "good")), draws=20)
+        assert pop.interval.samples.shape == (20, 2)
+        spill = est.query_interval(SpilloverQuery(("grove", grove, "Vigour"), "nursery", "Stock", "good", "poor", "high"),
+                                   draws=20)
+        assert set(spill.intervals) == {"own", "neighbours", "both"}
+        assert spill.own == est.query(SpilloverQuery(("grove", grove, "Vigour"), "nursery", "Stock", "good", "poor",
+                                                     "high")).own
+    again = fitted.query_interval(q, seed=0)
+    np.testing.assert_array_equal(again.interval.samples, fitted.query_interval(q, seed=0).interval.samples)
+    with pytest.raises(QueryError, match="draws must be a whole number"):
+        plug.query_interval(q, draws=3)

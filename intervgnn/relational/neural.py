@@ -257,6 +257,10 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
     neural_share_ : dict
         Per mechanism ``(entity, attribute)``, the posterior weight of the
         neural prior against the counts (0: counts alone).
+    posterior_ : dict
+        Per mechanism, the decoder's CPT-shaped conditionals and the
+        :class:`~intervgnn.models.shrinkage.Mixture` over (strength,
+        alpha): what :meth:`query_interval` draws CPTs from.
     models_ : list of InterventionalVGAE
         The cross-fitted models.
     train_results_ : list of TrainResult
@@ -462,21 +466,38 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
             finally:
                 if bar is not None:
                     bar.close()
-            mechs, counts, shares = [], {}, {}
+            mechs, counts, shares, posterior = [], {}, {}, {}
             for i, key in enumerate(keys):
                 m, fam = template.mechanisms[key], families[key]
-                cpt, c, mix = self._shrunk_cpt(m, i, fam, models, schema, keys, agg_node, offsets)
+                cpt, c, mix, base = self._shrunk_cpt(m, i, fam, models, schema, keys, agg_node, offsets)
                 c.setflags(write=False)
                 counts[key], shares[key] = c, mix.neural_share
+                posterior[key] = (base, mix)
                 mechs.append(Mechanism(m.entity, m.attribute, cpt, parents=m.parents, aggregates=m.aggregates))
         self.template_ = Template(template.schema, mechs)
         self.counts_ = counts
         self.families_ = families
         self.neural_share_ = shares
+        self.posterior_ = posterior
         self.models_ = models
         self.train_results_: list[TrainResult] = results
         self.skeleton_ = skeleton
         return self
+
+    def _draw_cpt(self, rng: np.random.Generator, key) -> np.ndarray:
+        """One CPT of mechanism ``key`` from the posterior its fitted CPT is the mean of.
+
+        A candidate (strength s, alpha) is picked by its weight, then every
+        row from Dirichlet(counts + s * decoder + alpha), as the single-table
+        neural estimator's posterior intervals do.
+        """
+        from ..estimators.plugin import dirichlet_draws
+
+        base, mix = self.posterior_[key]
+        j = rng.choice(mix.weight.size, p=mix.weight)
+        params = np.asarray(self.counts_[key], dtype=np.float64) + mix.strength[j] * base + mix.alpha[j]
+        params[params.sum(axis=-1) <= 0] = 1.0
+        return dirichlet_draws(rng, params)
 
     def _mech_edges(self, m: Mechanism, i, own, hits, degree, schema, keys, agg_node, offsets):
         index = {key: j for j, key in enumerate(keys)}
@@ -559,8 +580,9 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
             np.add.at(base, row, weight[:, None] * p)
             fold_bases.append(base / base.sum(axis=1, keepdims=True))
         mix = mixture_weights(counts, fold_counts, fold_bases, self.prior_counts)
-        cpt = mixture_rows(counts, np.mean(fold_bases, axis=0), mix).reshape(shape + [k])
-        return cpt, counts.reshape(shape + [k]), mix
+        base = np.mean(fold_bases, axis=0)
+        cpt = mixture_rows(counts, base, mix).reshape(shape + [k])
+        return cpt, counts.reshape(shape + [k]), mix, base.reshape(shape + [k])
 
 
 def _digits(code: np.ndarray, cards: list[int]) -> list[np.ndarray]:
