@@ -440,7 +440,7 @@ def cmd_relational_query(args) -> int:
     answer = exact_answer(template, skeleton, query)
     where = f"the template {args.template} grounded on {args.skeleton or args.sqlite}"
     if isinstance(answer, SpilloverEffects):
-        payload = dataclasses.asdict(answer)
+        payload = answer.to_dict()
         if args.json:
             print(json.dumps({"spillover": payload, "source": where, "caution": CAUTION}, indent=2))
             return 0

@@ -168,7 +168,7 @@ def test_estimator_contract():
     assert est.get_params() == {"alpha": 1.0}
     assert est.set_params(alpha=0.5) is est and est.alpha == 0.5
     assert est.fit(data, template) is est
-    assert {k for k in vars(est) if k.endswith("_")} == {"template_", "counts_", "skeleton_"}
+    assert {k for k in vars(est) if k.endswith("_")} == {"template_", "counts_", "alpha_", "skeleton_"}
     before = est.template_
     est.query(UnitQuery("orchard_a__Yield", do={"hive_1__Treated": "yes"}))
     assert est.template_ is before

@@ -294,7 +294,15 @@ class SpilloverEffects:
     both: float
     own_units: tuple[str, ...]
     neighbour_units: tuple[str, ...]
-    intervals: Mapping[str, Interval] | None = None
+    intervals: Mapping[str, Interval] | None = field(default=None, compare=False, repr=False)
+
+    def to_dict(self) -> dict:
+        """A JSON-ready dict: the contrasts, the units, and each contrast's interval where there is one."""
+        out = {"own": self.own, "neighbours": self.neighbours, "both": self.both,
+               "own_units": list(self.own_units), "neighbour_units": list(self.neighbour_units)}
+        if self.intervals is not None:
+            out["intervals"] = {name: iv.to_dict() for name, iv in self.intervals.items()}
+        return out
 
 
 # ---------------------------------------------------------------- answering
@@ -577,6 +585,8 @@ class RelationalPluginEstimator(Estimator):
         The fitted template (the given structure with counted CPTs).
     counts_ : dict of (entity, attribute) to numpy.ndarray
         The raw counts, CPT-shaped.
+    alpha_ : float
+        The smoothing the CPTs were fitted with (the posterior's prior).
     skeleton_ : Skeleton
         The skeleton of the data (the default for queries).
     """
@@ -621,6 +631,7 @@ class RelationalPluginEstimator(Estimator):
             mechs.append(Mechanism(m.entity, m.attribute, smoothed / totals, parents=m.parents, aggregates=aggs))
         self.template_ = Template(template.schema, mechs)
         self.counts_ = counts
+        self.alpha_ = alpha
         self.skeleton_ = data.skeleton
         return self
 
@@ -681,7 +692,7 @@ class RelationalPluginEstimator(Estimator):
         """One CPT of mechanism ``key`` from its posterior: each row Dirichlet(counts + alpha), a row never seen uniform."""
         from ..estimators.plugin import dirichlet_draws
 
-        params = np.asarray(self.counts_[key], dtype=np.float64) + float(self.alpha)
+        params = np.asarray(self.counts_[key], dtype=np.float64) + self.alpha_
         params[params.sum(axis=-1) <= 0] = 1.0
         return dirichlet_draws(rng, params)
 
@@ -696,19 +707,29 @@ class RelationalPluginEstimator(Estimator):
         answers, on every probability of a unit or population answer and on
         each of a spill-over answer's three contrasts. Like every interval
         of the package it covers the uncertainty from the data, not the
-        template's assumptions. Each draw grounds the query's part of the
-        skeleton again: a unit query costs draws times a pruned grounding,
-        a population query draws times the whole skeleton.
+        template's assumptions. A probability the counts alone make exactly
+        0 or 1 keeps that value inside its interval (no draw reaches it).
+        Each draw grounds the query's part of the skeleton again: a unit
+        query costs draws times a pruned grounding, a population query
+        draws times the whole skeleton. A query the exact engine cannot
+        answer on the skeleton (a Monte Carlo answer) gets no interval.
 
         Raises
         ------
         NotFittedError, QueryError, NetworkError, GraphError
-            As :meth:`query`; a bad ``level``, ``draws`` or ``seed``.
+            As :meth:`query`; a bad ``level``, ``draws`` or ``seed``; a
+            unit or population query answered by Monte Carlo.
         """
         from ..query import check_seed
 
-        point = self.query(query, skeleton=skeleton)
+        self._check_fitted()
         self._check_interval_settings(level, draws, seed)
+        point = self.query(query, skeleton=skeleton)
+        if isinstance(point, Distribution) and "Monte Carlo" in (point.description or ""):
+            raise QueryError(
+                "this query is answered by Monte Carlo on this skeleton (exact inference is too large), and an "
+                "interval would repeat that simulation for each of its draws; ask on a smaller skeleton"
+            )
         skeleton = self.skeleton_ if skeleton is None else skeleton
         draws = self.posterior_draws if draws is None else int(draws)
         rng = np.random.default_rng(check_seed(seed))
@@ -727,8 +748,22 @@ class RelationalPluginEstimator(Estimator):
 
             return replace(point, intervals={name: Interval(level, samples[:, j], "posterior")
                                              for j, name in enumerate(("own", "neighbours", "both"))})
+        # a probability the counts alone make exactly 0 or 1 is never reached by a draw: the bound goes there
+        # (as Estimator._counts_only_answers does for one table)
+        counts_only = np.asarray(_answer(self._counts_only_template(), skeleton, query).probs)
+        include = np.where((counts_only == 0.0) | (counts_only == 1.0), counts_only, np.nan)
         return Distribution(point.variables, point.states, point.probs, description=point.description,
-                            interval=Interval(level, samples, "posterior"))
+                            interval=Interval(level, samples, "posterior", include))
+
+    def _counts_only_template(self) -> Template:
+        """The fitted template with unsmoothed CPTs (count / row total; a row never seen uniform)."""
+        mechs = []
+        for key, m in self.template_.mechanisms.items():
+            c = np.asarray(self.counts_[key], dtype=np.float64)
+            seen = c.sum(axis=-1, keepdims=True)
+            cpt = np.divide(c, seen, out=np.full(c.shape, 1.0 / c.shape[-1]), where=seen > 0)
+            mechs.append(Mechanism(m.entity, m.attribute, cpt, parents=m.parents, aggregates=m.aggregates))
+        return Template(self.template_.schema, mechs)
 
 
 class UnlinkedPluginEstimator(RelationalPluginEstimator):
