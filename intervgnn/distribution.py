@@ -59,6 +59,16 @@ class Interval:
                 "lower": self.lower.tolist(), "upper": self.upper.tolist()}
 
 
+def boundary_values(p) -> np.ndarray:
+    """``p`` where it is exactly 0 or 1, NaN elsewhere: what an :class:`Interval`'s ``include`` takes.
+
+    A probability that the counts alone make exactly 0 or 1 is one no
+    posterior draw reaches; the interval's bound is widened to it there.
+    """
+    p = np.asarray(p, dtype=np.float64)
+    return np.where((p == 0.0) | (p == 1.0), p, np.nan)
+
+
 class EffectEstimate:
     """A contrast P(Y=y | do(X=a)) - P(Y=y | do(X=b)) with its interval and the decision view.
 

@@ -29,18 +29,21 @@ def _tv(p, q) -> float:
     return 0.5 * float(np.abs(np.asarray(p) - np.asarray(q)).sum())
 
 
+def grounded_draws(name: str, instances: int, degree: float, draws: int, seed: int):
+    """(template, skeleton, data): a benchmark world (template seed 0) and ``draws`` draws of its ground network."""
+    template, skeleton = relational_benchmark(name, instances=instances, degree=degree, seed=0)
+    rows = ground(template, skeleton).sample(draws, seed=seed)
+    return template, skeleton, RelationalData.from_ground_rows(template, skeleton, rows)
+
+
 @pytest.fixture(scope="module")
 def bipartite():
-    template, skeleton = relational_benchmark("bipartite", instances=8, degree=2, seed=0)
-    rows = ground(template, skeleton).sample(20_000, seed=1)
-    return template, skeleton, RelationalData.from_ground_rows(template, skeleton, rows)
+    return grounded_draws("bipartite", instances=8, degree=2, draws=20_000, seed=1)
 
 
 @pytest.fixture(scope="module")
 def peer():
-    template, skeleton = relational_benchmark("peer", instances=10, degree=1.5, seed=0)
-    rows = ground(template, skeleton).sample(2_000, seed=2)
-    return template, skeleton, RelationalData.from_ground_rows(template, skeleton, rows)
+    return grounded_draws("peer", instances=10, degree=1.5, draws=2_000, seed=2)
 
 
 def _tiny():

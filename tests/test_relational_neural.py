@@ -17,19 +17,16 @@ from intervgnn.relational import (
     SpilloverQuery,
     UnitQuery,
     exact_answer,
-    ground,
     relational_benchmark,
 )
 from intervgnn.relational.neural import RelationalNeuralEstimator, _batch, count_families
 
-from .test_relational_estimate import _tiny, _tv
+from .test_relational_estimate import _tiny, _tv, grounded_draws
 
 
 @pytest.fixture(scope="module")
 def chain():
-    template, skeleton = relational_benchmark("chain", instances=12, degree=2, seed=0)
-    rows = ground(template, skeleton).sample(3_000, seed=1)
-    return template, skeleton, RelationalData.from_ground_rows(template, skeleton, rows)
+    return grounded_draws("chain", instances=12, degree=2, draws=3_000, seed=1)
 
 
 @pytest.fixture(scope="module")

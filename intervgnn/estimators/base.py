@@ -6,7 +6,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from ..distribution import Distribution, EffectEstimate, Interval
+from ..distribution import Distribution, EffectEstimate, Interval, boundary_values
 from ..errors import DataError, IntervgnnError, NotFittedError, QueryError, did_you_mean, shorten
 from ..graph import CausalGraph
 from ..query import Query, check_seed, check_state, check_variable, make_query
@@ -273,8 +273,7 @@ class Estimator:
             except ZeroEvidenceError:
                 out.append(None)
             else:
-                a = arr[0]
-                out.append(np.where((a == 0.0) | (a == 1.0), a, np.nan))
+                out.append(boundary_values(arr[0]))
         return out
 
     #: draws from the experimental rows' posterior when an interval is asked without ``draws``
@@ -334,8 +333,7 @@ class Estimator:
 
         params = counts.reshape(-1) + 0.5
         samples = dirichlet_rows(np.random.default_rng(check_seed(seed)), params, draws).reshape((draws,) + shape)
-        raw = counts / n
-        boundary = np.where((raw == 0.0) | (raw == 1.0), raw, np.nan)  # the counts-only rule at 0 and 1
+        boundary = boundary_values(counts / n)
         out = Distribution(
             q.targets, [table.states[t] for t in q.targets], (params / params.sum()).reshape(shape),
             description=f"{q.describe()}, from the {n} experimental rows {self._experiment_text(q)} alone",

@@ -569,10 +569,9 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""
         if not self._posterior_ready():
             return [None] * len(queries)
-        cpts = {}
-        for v, (counts, _, _, shape) in self._posterior.items():
-            seen = counts.sum(axis=1, keepdims=True)
-            cpts[v] = np.divide(counts, seen, out=np.full(counts.shape, 1.0 / shape[-1]), where=seen > 0).reshape(shape)
+        from .plugin import counts_only_rows
+
+        cpts = {v: counts_only_rows(counts).reshape(shape) for v, (counts, _, _, shape) in self._posterior.items()}
         return self._counts_only_answers(queries, cpts)
 
     def _interval_samples(self, queries, level, draws, seed) -> list[np.ndarray]:
@@ -597,9 +596,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         def draw_cpt(rng, v, n):
             counts, base, mix, shape = self._posterior[v]
             pick = rng.choice(mix.weight.size, size=n, p=mix.weight)
-            params = (counts[None] + mix.strength[pick][:, None, None] * base[None]
-                      + mix.alpha[pick][:, None, None])
-            return dirichlet_draws(rng, params).reshape((n,) + shape)
+            return dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick)).reshape((n,) + shape)
 
         return self._posterior_answers(queries, draws, seed, draw_cpt)
 

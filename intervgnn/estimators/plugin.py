@@ -96,6 +96,13 @@ def loo_alpha(counts: np.ndarray, grid=AUTO_ALPHAS) -> float:
     return best
 
 
+def counts_only_rows(counts: np.ndarray) -> np.ndarray:
+    """Unsmoothed CPT rows: each count over its row total along the last axis, the uniform row where none was seen."""
+    counts = np.asarray(counts, dtype=np.float64)
+    seen = counts.sum(axis=-1, keepdims=True)
+    return np.divide(counts, seen, out=np.full(counts.shape, 1.0 / counts.shape[-1]), where=seen > 0)
+
+
 def count_cpts(
     table: Table, graph: CausalGraph, alpha, observational=(), dirichlet: dict | None = None,
     counts_only: dict | None = None,
@@ -121,17 +128,15 @@ def count_cpts(
     for v in graph.nodes:
         counts = count_table(table, graph, v, plain if v in observational else None)
         k = counts.shape[1]
+        cards = [len(states[p]) for p in graph.parents(v)]
         a = loo_alpha(counts) if alpha == "auto" else float(alpha)
         if counts_only is not None:
-            seen = counts.sum(axis=1, keepdims=True)
-            raw = np.divide(counts, seen, out=np.full(counts.shape, 1.0 / k), where=seen > 0)
-            counts_only[v] = raw.reshape([len(states[p]) for p in graph.parents(v)] + [k])
+            counts_only[v] = counts_only_rows(counts).reshape(cards + [k])
         counts += a
         totals = counts.sum(axis=1, keepdims=True)
         empty = totals[:, 0] <= 0
         counts[empty] = 1.0
         totals[empty] = k
-        cards = [len(states[p]) for p in graph.parents(v)]
         cpts[v] = (counts / totals).reshape(cards + [k])
         if dirichlet is not None:
             dirichlet[v] = counts.reshape(cards + [k])

@@ -61,6 +61,12 @@ class Mixture:
         """Posterior weight of the hypotheses that use the decoder (strength above 0)."""
         return float(self.weight[self.strength > 0].sum())
 
+    def dirichlet_params(self, counts: np.ndarray, base: np.ndarray, pick: np.ndarray) -> np.ndarray:
+        """``[n, *counts.shape]``: the rows' Dirichlet parameters counts + s base + alpha under candidates ``pick`` [n]."""
+        tail = (1,) * np.ndim(counts)
+        return (np.asarray(counts)[None] + self.strength[pick].reshape(-1, *tail) * np.asarray(base)[None]
+                + self.alpha[pick].reshape(-1, *tail))
+
 
 
 def mixture_weights(

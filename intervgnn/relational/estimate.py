@@ -34,11 +34,11 @@ only), so any effect that crosses a link comes out as exactly zero.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from ..distribution import Distribution, Interval
+from ..distribution import Distribution, Interval, boundary_values
 from ..errors import DataError, GraphError, NetworkError, NotFittedError, QueryError, did_you_mean, short_repr, shorten
 from ..estimators.base import Estimator, check_alpha
 from .data import RelationalData
@@ -744,26 +744,23 @@ class RelationalPluginEstimator(Estimator):
                 samples.append(answer.probs)
         samples = np.asarray(samples)
         if isinstance(point, SpilloverEffects):
-            from dataclasses import replace
-
             return replace(point, intervals={name: Interval(level, samples[:, j], "posterior")
                                              for j, name in enumerate(("own", "neighbours", "both"))})
         # a probability the counts alone make exactly 0 or 1 is never reached by a draw: the bound goes there
         # (as Estimator._counts_only_answers does for one table)
-        counts_only = np.asarray(_answer(self._counts_only_template(), skeleton, query).probs)
-        include = np.where((counts_only == 0.0) | (counts_only == 1.0), counts_only, np.nan)
+        include = boundary_values(_answer(self._counts_only_template(), skeleton, query).probs)
         return Distribution(point.variables, point.states, point.probs, description=point.description,
                             interval=Interval(level, samples, "posterior", include))
 
     def _counts_only_template(self) -> Template:
         """The fitted template with unsmoothed CPTs (count / row total; a row never seen uniform)."""
-        mechs = []
-        for key, m in self.template_.mechanisms.items():
-            c = np.asarray(self.counts_[key], dtype=np.float64)
-            seen = c.sum(axis=-1, keepdims=True)
-            cpt = np.divide(c, seen, out=np.full(c.shape, 1.0 / c.shape[-1]), where=seen > 0)
-            mechs.append(Mechanism(m.entity, m.attribute, cpt, parents=m.parents, aggregates=m.aggregates))
-        return Template(self.template_.schema, mechs)
+        from ..estimators.plugin import counts_only_rows
+
+        return Template(self.template_.schema, [
+            Mechanism(m.entity, m.attribute, counts_only_rows(self.counts_[key]), parents=m.parents,
+                      aggregates=m.aggregates)
+            for key, m in self.template_.mechanisms.items()
+        ])
 
 
 class UnlinkedPluginEstimator(RelationalPluginEstimator):

@@ -495,9 +495,7 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
 
         base, mix = self.posterior_[key]
         j = rng.choice(mix.weight.size, p=mix.weight)
-        params = np.asarray(self.counts_[key], dtype=np.float64) + mix.strength[j] * base + mix.alpha[j]
-        params[params.sum(axis=-1) <= 0] = 1.0
-        return dirichlet_draws(rng, params)
+        return dirichlet_draws(rng, mix.dirichlet_params(self.counts_[key], base, np.array([j]))[0])
 
     def _mech_edges(self, m: Mechanism, i, own, hits, degree, schema, keys, agg_node, offsets):
         index = {key: j for j, key in enumerate(keys)}
