@@ -12,7 +12,7 @@ import intervgnn as ig
 from intervgnn import NotFittedError, QueryError
 from intervgnn.distribution import Distribution, EffectEstimate, Interval
 from intervgnn.estimators import NeuralEstimator, PluginEstimator
-from intervgnn.estimators.plugin import dirichlet_rows
+from intervgnn.estimators.plugin import AUTO_ALPHAS, dirichlet_rows, mixed_dirichlet_rows, row_prior_weights
 
 
 def test_batched_engine_equals_one_query_per_cpt_set():
@@ -63,6 +63,50 @@ def test_plugin_interval_of_a_root_is_the_beta_posterior():
     assert d.interval.method == "posterior" and d.interval.draws == 40_000
 
 
+def test_row_weights_follow_the_dirichlet_multinomial_likelihood():
+    # Each row weighs the candidate priors Dirichlet(a, ..., a) by shared weights w times the row's marginal
+    # likelihood. Between two rows, the log ratio of two candidates' weights differs by the difference of
+    # their log likelihoods alone (w and the multinomial coefficient cancel); reference:
+    # scipy.stats.dirichlet_multinomial (a general-purpose library).
+    counts = np.array([[40.0, 1.0, 0.0], [3.0, 0.0, 0.0], [2.0, 2.0, 1.0], [0.0, 0.0, 0.0]])
+    post = row_prior_weights(counts)
+    assert post.shape == (len(AUTO_ALPHAS), 4)
+    np.testing.assert_allclose(post.sum(axis=0), 1.0)
+    ll = np.array([[stats.dirichlet_multinomial.logpmf(c, np.full(3, a), c.sum()) if c.sum() else 0.0
+                    for c in counts] for a in AUTO_ALPHAS])
+    for r, s in ((0, 1), (1, 2), (0, 2)):
+        for i, j in ((0, 3), (1, 5), (2, 4)):
+            ours = np.log(post[j, r] / post[i, r]) - np.log(post[j, s] / post[i, s])
+            assert ours == pytest.approx((ll[j, r] - ll[i, r]) - (ll[j, s] - ll[i, s]), abs=1e-8)
+
+
+def test_row_weights_recover_how_deterministic_a_variable_is():
+    # Empirical Bayes on many rows recovers the concentration the rows were drawn with (common practice, no
+    # source): rows drawn from Dirichlet(0.01) put a row never seen on the smallest values of the grid, rows
+    # drawn from Dirichlet(3) on the largest.
+    rng = np.random.default_rng(0)
+    for a, side in ((0.01, slice(0, 2)), (3.0, slice(4, 6))):
+        rows = np.vstack([rng.multinomial(30, rng.dirichlet(np.full(3, a))) for _ in range(300)] + [np.zeros(3)])
+        w = row_prior_weights(rows.astype(float))[:, -1]  # the unseen row keeps the variable's weights
+        assert w[side].sum() > 0.8
+
+
+def test_a_rare_row_seen_in_one_state_keeps_an_honest_spread():
+    # A variable whose common row is nearly deterministic (985 / 5) and whose rare row was seen 10 times, all
+    # in one state. One smoothing value for the variable (leave-one-out picks 0.01) makes the rare row's
+    # posterior Beta(10.01, 0.01), whose 95% interval is [0.995, 1] (scipy.stats.beta): a true 0.9 would be
+    # missed. Weighing the smoothing grid per row must reach below 0.9, the Jeffreys interval's lower bound
+    # for 10 of 10 being 0.783 (Brown, Cai & DasGupta 2001, Statistical Science 16: 101-133), while the
+    # common row, where the counts decide, keeps Beta(985.01, 5.01)'s interval.
+    counts = np.array([[985.0, 5.0], [10.0, 0.0]])
+    draws = mixed_dirichlet_rows(np.random.default_rng(0), counts, 40_000)
+    lo, hi = np.quantile(draws[:, 1, 0], [0.025, 0.975])
+    assert stats.beta.ppf(0.025, 10.01, 0.01) > 0.99
+    assert stats.beta.ppf(0.025, 10.5, 0.5) - 0.05 < lo < 0.9 and hi > 0.9999
+    np.testing.assert_allclose(np.quantile(draws[:, 0, 0], [0.025, 0.975]),
+                               stats.beta.ppf([0.025, 0.975], 985.01, 5.01), atol=0.003)
+
+
 def test_plugin_intervals_cover_the_exact_answers_most_of_the_time():
     # a small coverage check (the recorded one is experiments/bench/interval_coverage.py): on sachs with 2,000
     # rows, nominal 95% intervals on 20 do-queries must hold most exact probabilities (common practice, no source)
@@ -105,7 +149,7 @@ def test_bootstrap_interval_effect_and_cache():
 def test_neural_interval_is_drawn_from_the_shrinkage_posterior():
     # the neural answer is the mean of a Dirichlet posterior centred on the decoder (a mixture over strengths);
     # with the strength forced to zero (prior_counts=1: counts alone) the interval must equal the plug-in's
-    # posterior interval with the same alpha drawn the same way (the plug-in's is checked against scipy above)
+    # posterior interval (the plug-in's pieces are checked against scipy above)
     net = ig.load_network("cancer")
     rows = net.sample(1000, seed=0)
     est = NeuralEstimator(seed=0, steps=10).fit(rows, net.graph)
@@ -114,6 +158,12 @@ def test_neural_interval_is_drawn_from_the_shrinkage_posterior():
     assert np.all(d.interval.lower <= d.probs + 0.02) and np.all(d.probs - 0.02 <= d.interval.upper)
     effect = est.effect_interval("Dyspnoea", "Smoker", "True", "False", "True", seed=2)
     assert effect.interval.method == "posterior" and effect.lower <= effect.estimate + 0.01
+    counts_alone = NeuralEstimator(seed=0, steps=10, prior_counts=1.0).fit(rows, net.graph)
+    plug = PluginEstimator().fit(rows, net.graph)
+    a = counts_alone.query_interval("Dyspnoea", do={"Smoker": "True"}, draws=20_000, seed=3).interval
+    b = plug.query_interval("Dyspnoea", do={"Smoker": "True"}, draws=20_000, seed=4).interval
+    np.testing.assert_allclose(a.lower, b.lower, atol=0.005)
+    np.testing.assert_allclose(a.upper, b.upper, atol=0.005)
     loaded_like = NeuralEstimator(seed=0, steps=10, mode="monte_carlo").fit(rows.take(np.arange(300)), net.graph)
     assert loaded_like._interval_method() == "bootstrap"  # Monte Carlo mode has no tabulated posterior
 

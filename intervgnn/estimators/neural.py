@@ -581,14 +581,18 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         averaged over the candidates (s, alpha) with their weights
         (:mod:`~intervgnn.models.shrinkage`); a draw picks a candidate by its
         weight, then the row from that Dirichlet, so the interval carries
-        the pull towards the decoder as well as the counts' noise. Every
+        the pull towards the decoder as well as the counts' noise; where it
+        picks the counts-only candidate, the rows come from the plug-in's
+        posterior (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`:
+        each row's smoothing is uncertain, not the one value the point
+        estimate uses). Every
         drawn set is answered exactly in one contraction. In Monte Carlo
         mode, with hidden common causes or without the cut, the bootstrap of
         :class:`Estimator` is used instead.
         """
         if not self._posterior_ready():
             return super()._interval_samples(queries, level, draws, seed)
-        from .plugin import dirichlet_draws
+        from .plugin import dirichlet_draws, mixed_dirichlet_rows
 
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
@@ -596,7 +600,11 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         def draw_cpt(rng, v, n):
             counts, base, mix, shape = self._posterior[v]
             pick = rng.choice(mix.weight.size, size=n, p=mix.weight)
-            return dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick)).reshape((n,) + shape)
+            out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
+            plain = mix.strength[pick] == 0  # the counts-only candidate: the plug-in's posterior
+            if plain.any():
+                out[plain] = mixed_dirichlet_rows(rng, counts, int(plain.sum()))
+            return out.reshape((n,) + shape)
 
         return self._posterior_answers(queries, draws, seed, draw_cpt)
 

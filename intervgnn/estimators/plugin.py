@@ -14,6 +14,7 @@ from .estimand import network_oracle
 
 __all__ = [
     "PluginEstimator", "count_cpts", "count_table", "loo_alpha", "observational_dag", "AUTO_ALPHAS", "MAX_CPT_CELLS",
+    "row_prior_candidates", "row_prior_weights", "mixed_dirichlet_rows",
 ]
 
 
@@ -105,7 +106,7 @@ def counts_only_rows(counts: np.ndarray) -> np.ndarray:
 
 def count_cpts(
     table: Table, graph: CausalGraph, alpha, observational=(), dirichlet: dict | None = None,
-    counts_only: dict | None = None,
+    counts_only: dict | None = None, raw: dict | None = None,
 ) -> dict[str, np.ndarray]:
     """Smoothed CPTs ``(count + alpha) / (row total + alpha * k)``, axes ``(*parents, v)``.
 
@@ -119,7 +120,7 @@ def count_cpts(
     variable the rows' posterior Dirichlet parameters ``count + alpha``
     (all ones for a row never seen with ``alpha = 0``), CPT-shaped;
     ``counts_only``, if given, the unsmoothed CPTs (count / row total, the
-    uniform row where never seen).
+    uniform row where never seen); ``raw``, if given, the counts themselves.
     """
     states = table.states
     cpts = {}
@@ -132,6 +133,8 @@ def count_cpts(
         a = loo_alpha(counts) if alpha == "auto" else float(alpha)
         if counts_only is not None:
             counts_only[v] = counts_only_rows(counts).reshape(cards + [k])
+        if raw is not None:
+            raw[v] = counts.reshape(cards + [k]).copy()
         counts += a
         totals = counts.sum(axis=1, keepdims=True)
         empty = totals[:, 0] <= 0
@@ -177,6 +180,82 @@ def dirichlet_draws(rng: np.random.Generator, params: np.ndarray) -> np.ndarray:
     # a gamma variate of a small shape can underflow to 0; a drawn row stays inside the simplex
     g = np.maximum(g, np.finfo(np.float64).tiny)
     return g / g.sum(axis=-1, keepdims=True)
+
+
+def row_prior_candidates(counts: np.ndarray) -> np.ndarray:
+    """``[J, R, k]``: the Dirichlet priors a CPT row may follow, given the variable's counts ``[R, k]``.
+
+    The symmetric priors Dirichlet(a, ..., a) for every ``a`` of
+    :data:`AUTO_ALPHAS`, the smoothing grid: from nearly deterministic rows
+    (0.01) to nearly uniform ones (3).
+    """
+    counts = np.asarray(counts, dtype=np.float64)
+    grid = np.asarray(AUTO_ALPHAS, dtype=np.float64)
+    return np.broadcast_to(grid[:, None, None], (grid.size,) + counts.shape)
+
+
+def _log_marginal(counts: np.ndarray, priors: np.ndarray) -> np.ndarray:
+    """``[J, R]``: log probability of each row's sequence of states under each Dirichlet prior (Dirichlet-multinomial)."""
+    from scipy.special import gammaln
+
+    a0 = priors.sum(axis=-1)
+    return gammaln(a0) - gammaln(counts.sum(axis=-1)[None] + a0) + (gammaln(counts[None] + priors) - gammaln(priors)).sum(-1)
+
+
+def row_prior_weights(counts: np.ndarray, priors: np.ndarray | None = None, pseudo: float = 1.0) -> np.ndarray:
+    r"""``[J, R]``: each CPT row's posterior weights over the candidate priors (columns sum to one).
+
+    A hierarchical model: every row of the variable draws its prior from the
+    candidates (:func:`row_prior_candidates`) with shared weights
+    :math:`w`, then its probabilities from that prior. The weights are
+    fitted by empirical Bayes, maximising the rows' Dirichlet-multinomial
+    marginal likelihood (EM over the rows seen), with ``pseudo`` extra
+    responsibility per candidate (a Dirichlet(1 + ``pseudo``) prior on
+    :math:`w`) so that a variable of two or three seen rows does not pin its
+    weights on whatever those rows favour. Row :math:`r` then weighs
+    candidate :math:`j` by :math:`w_j\, p(n_r \mid j)`: a row seen ten
+    times in one state keeps some weight on priors under which its
+    probability is well short of 1, a row of a variable whose rows are all
+    nearly deterministic little. A row never seen gets :math:`w`.
+    """
+    counts = np.asarray(counts, dtype=np.float64)
+    priors = row_prior_candidates(counts) if priors is None else priors
+    loglik = _log_marginal(counts, priors)
+    n_cand = loglik.shape[0]
+    seen = counts.sum(axis=1) > 0
+    w = np.full(n_cand, 1.0 / n_cand)
+    if seen.any():
+        lik = np.exp(loglik[:, seen] - loglik[:, seen].max(axis=0, keepdims=True))
+        for _ in range(500):
+            resp = w[:, None] * lik
+            resp /= resp.sum(axis=0, keepdims=True)
+            new = (resp.sum(axis=1) + pseudo) / (resp.shape[1] + pseudo * n_cand)
+            done = np.abs(new - w).max() < 1e-9
+            w = new
+            if done:
+                break
+    logpost = np.log(w)[:, None] + loglik
+    post = np.exp(logpost - logpost.max(axis=0, keepdims=True))
+    return post / post.sum(axis=0, keepdims=True)
+
+
+def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int) -> np.ndarray:
+    """``draws`` CPTs ``[draws, *counts.shape]``: every row drawn from its posterior under :func:`row_prior_weights`.
+
+    Per draw and row a candidate prior is picked by the row's weights, then
+    the row from Dirichlet(counts + that prior). ``counts`` is CPT-shaped
+    (states on the last axis).
+    """
+    counts = np.asarray(counts, dtype=np.float64)
+    flat = counts.reshape(-1, counts.shape[-1])
+    priors = row_prior_candidates(flat)
+    cum = np.cumsum(row_prior_weights(flat, priors), axis=0)  # [J, R]
+    u = rng.random((draws, flat.shape[0]))
+    pick = np.zeros(u.shape, dtype=np.intp)
+    for j in range(cum.shape[0] - 1):  # one [draws, R] comparison per candidate, not a [draws, J, R] array
+        pick += u > cum[j]
+    params = flat[None] + priors[pick, np.arange(flat.shape[0])[None, :]]
+    return dirichlet_draws(rng, params).reshape((draws,) + counts.shape)
 
 
 class PluginEstimator(ChecksIdentification, Estimator):
@@ -270,8 +349,9 @@ class PluginEstimator(ChecksIdentification, Estimator):
             )
         self._dirichlet = {}
         self._counts_only = {}
+        self._counts = {}
         cpts = count_cpts(table, factors, self.alpha, observational=confounded, dirichlet=self._dirichlet,
-                          counts_only=self._counts_only)
+                          counts_only=self._counts_only, raw=self._counts)
         self.graph_ = graph
         self.states_ = states
         self.network_ = CausalNetwork(factors, states, cpts, name="plug-in")
@@ -292,9 +372,16 @@ class PluginEstimator(ChecksIdentification, Estimator):
     def _interval_samples(self, queries, level, draws, seed) -> list[np.ndarray]:
         """Answers under CPT sets drawn from their posterior (one draw shared by all ``queries``).
 
-        Every CPT row's posterior is the Dirichlet of its counts plus
-        ``alpha`` (the smoothing is the prior); each drawn set is answered
-        exactly, all at once (one contraction with a batch axis). On a
+        With a fixed ``alpha`` every CPT row's posterior is the Dirichlet of
+        its counts plus ``alpha`` (the smoothing is the prior). With
+        ``alpha="auto"`` the data chose the smoothing, and how smooth one
+        row is stays uncertain: each row's posterior mixes the Dirichlet
+        posteriors of several priors, weighted by how well each explains
+        that row and the variable's other rows (:func:`row_prior_weights`),
+        so a rare parent configuration seen a few times in one state keeps
+        an honest spread even where the variable's common rows are nearly
+        deterministic. Each drawn set is answered exactly, all at once (one
+        contraction with a batch axis). On a
         diagram with hidden common causes (answers by an identification
         formula) the bootstrap of :class:`Estimator` is used instead.
         """
@@ -302,6 +389,9 @@ class PluginEstimator(ChecksIdentification, Estimator):
             return super()._interval_samples(queries, level, draws, seed)
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
+        if self.alpha == "auto":
+            return self._posterior_answers(queries, draws, seed,
+                                           lambda rng, v, n: mixed_dirichlet_rows(rng, self._counts[v], n))
         return self._posterior_answers(queries, draws, seed, lambda rng, v, n: dirichlet_rows(rng, self._dirichlet[v], n))
 
     def _interval_include(self, queries) -> list:

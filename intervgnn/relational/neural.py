@@ -488,13 +488,18 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
         """One CPT of mechanism ``key`` from the posterior its fitted CPT is the mean of.
 
         A candidate (strength s, alpha) is picked by its weight, then every
-        row from Dirichlet(counts + s * decoder + alpha), as the single-table
-        neural estimator's posterior intervals do.
+        row from Dirichlet(counts + s * decoder + alpha); the counts-only
+        candidate draws its rows from the plug-in's posterior with the
+        smoothing weighed per row
+        (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`), as the
+        single-table neural estimator's posterior intervals do.
         """
-        from ..estimators.plugin import dirichlet_draws
+        from ..estimators.plugin import dirichlet_draws, mixed_dirichlet_rows
 
         base, mix = self.posterior_[key]
         j = rng.choice(mix.weight.size, p=mix.weight)
+        if mix.strength[j] == 0:
+            return mixed_dirichlet_rows(rng, self.counts_[key], 1)[0]
         return dirichlet_draws(rng, mix.dirichlet_params(self.counts_[key], base, np.array([j]))[0])
 
     def _mech_edges(self, m: Mechanism, i, own, hits, degree, schema, keys, agg_node, offsets):
