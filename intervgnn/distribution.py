@@ -28,16 +28,22 @@ class Interval:
         Bounds, the shape of the answer's ``probs``.
     method : str
         How the sample was drawn, e.g. ``"posterior"`` (CPT rows drawn from
-        their Dirichlet posterior, each set answered exactly).
+        their posterior, a Dirichlet or a mixture of Dirichlets, each set
+        answered exactly).
     samples : numpy.ndarray
-        ``[draws, *shape]``: the answers the bounds are quantiles of.
+        ``[draws, *shape]``: the answers the bounds are quantiles of (before
+        the widening of ``include`` and ``estimate`` below).
 
     ``include``, if given (the shape of the bounds), widens the bounds to
     contain it where it is not NaN: the posterior intervals pass the
-    probabilities the counts alone make exactly 0 or 1 there.
+    probabilities the counts alone make exactly 0 or 1 there. ``estimate``,
+    if given, is the answer the interval goes with, and the bounds always
+    contain it: a bootstrap's percentiles, or a posterior that weighs the
+    smoothing per CPT row while the point answer uses one value per
+    variable, can leave the answer just outside the draws' quantiles.
     """
 
-    def __init__(self, level: float, samples, method: str, include=None):
+    def __init__(self, level: float, samples, method: str, include=None, estimate=None):
         samples = np.asarray(samples, dtype=np.float64)
         self.level = float(level)
         self.method = method
@@ -47,6 +53,9 @@ class Interval:
         if include is not None:  # bounds widened to contain these values where not NaN (see Estimator._counts_only_answers)
             include = np.asarray(include, dtype=np.float64)
             self.lower, self.upper = np.fmin(self.lower, include), np.fmax(self.upper, include)
+        if estimate is not None:
+            estimate = np.asarray(estimate, dtype=np.float64)
+            self.lower, self.upper = np.minimum(self.lower, estimate), np.maximum(self.upper, estimate)
         for a in (self.samples, self.lower, self.upper):
             a.setflags(write=False)
 

@@ -182,7 +182,8 @@ class Estimator:
         include = self._interval_include([(target, do, given)])[0]
         return Distribution(
             point.variables, point.states, point.probs, description=point.description,
-            identified=point.identified, interval=Interval(level, samples, self._interval_method(), include),
+            identified=point.identified,
+            interval=Interval(level, samples, self._interval_method(), include, estimate=point.probs),
         )
 
     def effect_interval(
@@ -229,14 +230,15 @@ class Estimator:
             pa, pb = (arm.interval.samples[:, k] for arm in arms)
             n = "/".join(str(arm.experimental_rows) for arm in arms)
             include = arms[0].boundary[k] - arms[1].boundary[k]
+            estimate = arms[0].probs[k] - arms[1].probs[k]
             return EffectEstimate(f"{text}, from {n} experimental rows alone (not identifiable from observational rows)",
-                                  arms[0].probs[k] - arms[1].probs[k],
-                                  Interval(level, pa - pb, arms[0].interval.method, include))
+                                  estimate, Interval(level, pa - pb, arms[0].interval.method, include, estimate=estimate))
         pair = [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)]
         pa, pb = self._interval_samples(pair, level, draws, seed)
         ia, ib = self._interval_include(pair)
         include = None if ia is None or ib is None else ia[k] - ib[k]
-        return EffectEstimate(text, estimate, Interval(level, pa[:, k] - pb[:, k], self._interval_method(), include))
+        return EffectEstimate(text, estimate, Interval(level, pa[:, k] - pb[:, k], self._interval_method(), include,
+                                                       estimate=estimate))
 
     def _interval_method(self) -> str:
         return "bootstrap"
@@ -337,7 +339,8 @@ class Estimator:
         out = Distribution(
             q.targets, [table.states[t] for t in q.targets], (params / params.sum()).reshape(shape),
             description=f"{q.describe()}, from the {n} experimental rows {self._experiment_text(q)} alone",
-            interval=Interval(level, samples, "experimental posterior", boundary),
+            interval=Interval(level, samples, "experimental posterior", boundary,
+                              estimate=(params / params.sum()).reshape(shape)),
         )
         out.experimental_rows = n
         out.boundary = boundary

@@ -575,17 +575,19 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         return self._counts_only_answers(queries, cpts)
 
     def _interval_samples(self, queries, level, draws, seed) -> list[np.ndarray]:
-        """Answers under CPT sets drawn from the posterior the answer is the mean of.
+        """Answers under CPT sets drawn from the posterior of the shrunk CPTs (whose mean is nearly the answer's CPTs).
 
         Each CPT row is the posterior mean of Dirichlet(counts + s m + alpha)
         averaged over the candidates (s, alpha) with their weights
         (:mod:`~intervgnn.models.shrinkage`); a draw picks a candidate by its
         weight, then the row from that Dirichlet, so the interval carries
         the pull towards the decoder as well as the counts' noise; where it
-        picks the counts-only candidate, the rows come from the plug-in's
-        posterior (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`:
-        each row's smoothing is uncertain, not the one value the point
-        estimate uses). Every
+        picks the counts-only candidate, the rows come from the posterior
+        the plug-in fitted with ``alpha="auto"`` draws from
+        (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`: each
+        row's smoothing is uncertain, not the one value the point estimate
+        uses, so the answer is not quite the draws' mean; the interval
+        always holds it). Every
         drawn set is answered exactly in one contraction. In Monte Carlo
         mode, with hidden common causes or without the cut, the bootstrap of
         :class:`Estimator` is used instead.

@@ -14,7 +14,7 @@ from .estimand import network_oracle
 
 __all__ = [
     "PluginEstimator", "count_cpts", "count_table", "loo_alpha", "observational_dag", "AUTO_ALPHAS", "MAX_CPT_CELLS",
-    "row_prior_candidates", "row_prior_weights", "mixed_dirichlet_rows",
+    "row_prior_weights", "mixed_dirichlet_rows",
 ]
 
 
@@ -182,55 +182,57 @@ def dirichlet_draws(rng: np.random.Generator, params: np.ndarray) -> np.ndarray:
     return g / g.sum(axis=-1, keepdims=True)
 
 
-def row_prior_candidates(counts: np.ndarray) -> np.ndarray:
-    """``[J, R, k]``: the Dirichlet priors a CPT row may follow, given the variable's counts ``[R, k]``.
+def _row_log_marginals(flat: np.ndarray, grid: np.ndarray) -> np.ndarray:
+    """``[J, R]``: log probability of each row's sequence of states under Dirichlet(a, ..., a) for every ``a`` of ``grid``.
 
-    The symmetric priors Dirichlet(a, ..., a) for every ``a`` of
-    :data:`AUTO_ALPHAS`, the smoothing grid: from nearly deterministic rows
-    (0.01) to nearly uniform ones (3).
+    The Dirichlet-multinomial: :math:`\\log\\Gamma(ka) - \\log\\Gamma(N + ka)
+    + \\sum_s [\\log\\Gamma(n_s + a) - \\log\\Gamma(a)]` (the multinomial
+    coefficient, the same under every prior, left out). One ``[R, k]``
+    temporary at a time.
     """
-    counts = np.asarray(counts, dtype=np.float64)
-    grid = np.asarray(AUTO_ALPHAS, dtype=np.float64)
-    return np.broadcast_to(grid[:, None, None], (grid.size,) + counts.shape)
-
-
-def _log_marginal(counts: np.ndarray, priors: np.ndarray) -> np.ndarray:
-    """``[J, R]``: log probability of each row's sequence of states under each Dirichlet prior (Dirichlet-multinomial)."""
     from scipy.special import gammaln
 
-    a0 = priors.sum(axis=-1)
-    return gammaln(a0) - gammaln(counts.sum(axis=-1)[None] + a0) + (gammaln(counts[None] + priors) - gammaln(priors)).sum(-1)
+    k = flat.shape[1]
+    total = flat.sum(axis=1)
+    out = np.empty((grid.size, flat.shape[0]))
+    for j, a in enumerate(grid):
+        out[j] = gammaln(k * a) - gammaln(total + k * a) + gammaln(flat + a).sum(axis=1) - k * gammaln(a)
+    return out
 
 
-def row_prior_weights(counts: np.ndarray, priors: np.ndarray | None = None, pseudo: float = 1.0) -> np.ndarray:
-    r"""``[J, R]``: each CPT row's posterior weights over the candidate priors (columns sum to one).
+def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, pseudo: float = 1.0) -> np.ndarray:
+    r"""``[J, R]``: each CPT row's posterior weights over the smoothing values ``grid`` (columns sum to one).
 
-    A hierarchical model: every row of the variable draws its prior from the
-    candidates (:func:`row_prior_candidates`) with shared weights
-    :math:`w`, then its probabilities from that prior. The weights are
-    fitted by empirical Bayes, maximising the rows' Dirichlet-multinomial
-    marginal likelihood (EM over the rows seen), with ``pseudo`` extra
-    responsibility per candidate (a Dirichlet(1 + ``pseudo``) prior on
-    :math:`w`) so that a variable of two or three seen rows does not pin its
-    weights on whatever those rows favour. Row :math:`r` then weighs
-    candidate :math:`j` by :math:`w_j\, p(n_r \mid j)`: a row seen ten
-    times in one state keeps some weight on priors under which its
-    probability is well short of 1, a row of a variable whose rows are all
-    nearly deterministic little. A row never seen gets :math:`w`.
+    ``counts`` is ``[R, k]`` or CPT-shaped (states on the last axis; rows
+    in C order). A hierarchical model: every row of the variable draws its
+    prior Dirichlet(a, ..., a) from the ``grid`` (by default
+    :data:`AUTO_ALPHAS`, from nearly deterministic rows at 0.01 to nearly
+    uniform ones at 3) with shared weights :math:`w`, then its
+    probabilities from that prior. The weights are fitted by empirical
+    Bayes, maximising the rows' Dirichlet-multinomial marginal likelihood
+    (EM over the rows seen), with ``pseudo`` extra responsibility per value
+    (a Dirichlet(1 + ``pseudo``) prior on :math:`w`) so that a variable of
+    two or three seen rows does not pin its weights on whatever those rows
+    favour. Row :math:`r` then weighs value :math:`a_j` by
+    :math:`w_j\, p(n_r \mid a_j)`: a row seen ten times in one state keeps
+    some weight on values under which its probability is well short of 1;
+    a row of a variable whose rows are all nearly deterministic, less. A
+    row never seen gets :math:`w`.
     """
     counts = np.asarray(counts, dtype=np.float64)
-    priors = row_prior_candidates(counts) if priors is None else priors
-    loglik = _log_marginal(counts, priors)
-    n_cand = loglik.shape[0]
-    seen = counts.sum(axis=1) > 0
+    flat = counts.reshape(-1, counts.shape[-1])
+    grid = np.asarray(grid, dtype=np.float64)
+    loglik = _row_log_marginals(flat, grid)
+    n_cand = grid.size
+    seen = flat.sum(axis=1) > 0
     w = np.full(n_cand, 1.0 / n_cand)
     if seen.any():
         lik = np.exp(loglik[:, seen] - loglik[:, seen].max(axis=0, keepdims=True))
-        for _ in range(500):
+        for _ in range(5000):
             resp = w[:, None] * lik
             resp /= resp.sum(axis=0, keepdims=True)
             new = (resp.sum(axis=1) + pseudo) / (resp.shape[1] + pseudo * n_cand)
-            done = np.abs(new - w).max() < 1e-9
+            done = np.abs(new - w).max() < 1e-10
             w = new
             if done:
                 break
@@ -239,22 +241,24 @@ def row_prior_weights(counts: np.ndarray, priors: np.ndarray | None = None, pseu
     return post / post.sum(axis=0, keepdims=True)
 
 
-def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int) -> np.ndarray:
+def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int,
+                         weights: np.ndarray | None = None, grid=AUTO_ALPHAS) -> np.ndarray:
     """``draws`` CPTs ``[draws, *counts.shape]``: every row drawn from its posterior under :func:`row_prior_weights`.
 
-    Per draw and row a candidate prior is picked by the row's weights, then
-    the row from Dirichlet(counts + that prior). ``counts`` is CPT-shaped
+    Per draw and row a smoothing value is picked by the row's weights
+    (``weights``, ``[J, R]``, computed from ``counts`` where not given), then
+    the row from Dirichlet(counts + that value). ``counts`` is CPT-shaped
     (states on the last axis).
     """
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
-    priors = row_prior_candidates(flat)
-    cum = np.cumsum(row_prior_weights(flat, priors), axis=0)  # [J, R]
+    grid = np.asarray(grid, dtype=np.float64)
+    cum = np.cumsum(row_prior_weights(flat, grid) if weights is None else weights, axis=0)  # [J, R]
     u = rng.random((draws, flat.shape[0]))
     pick = np.zeros(u.shape, dtype=np.intp)
-    for j in range(cum.shape[0] - 1):  # one [draws, R] comparison per candidate, not a [draws, J, R] array
+    for j in range(grid.size - 1):  # one [draws, R] comparison per value, not a [draws, J, R] array
         pick += u > cum[j]
-    params = flat[None] + priors[pick, np.arange(flat.shape[0])[None, :]]
+    params = grid[pick][..., None] + flat  # [draws, R, k]
     return dirichlet_draws(rng, params).reshape((draws,) + counts.shape)
 
 
@@ -349,7 +353,9 @@ class PluginEstimator(ChecksIdentification, Estimator):
             )
         self._dirichlet = {}
         self._counts_only = {}
-        self._counts = {}
+        # with alpha="auto" the interval weighs the smoothing per row (see _interval_samples): it needs the counts
+        self._counts = {} if self.alpha == "auto" else None
+        self._row_weights = {}
         cpts = count_cpts(table, factors, self.alpha, observational=confounded, dirichlet=self._dirichlet,
                           counts_only=self._counts_only, raw=self._counts)
         self.graph_ = graph
@@ -380,8 +386,12 @@ class PluginEstimator(ChecksIdentification, Estimator):
         that row and the variable's other rows (:func:`row_prior_weights`),
         so a rare parent configuration seen a few times in one state keeps
         an honest spread even where the variable's common rows are nearly
-        deterministic. Each drawn set is answered exactly, all at once (one
-        contraction with a batch axis). On a
+        deterministic. (The point answer keeps the one smoothing value per
+        variable that leave-one-out picked, so it is not quite the mean of
+        these draws; the interval is widened to hold it where the draws do
+        not, see :class:`~intervgnn.distribution.Interval`.) Each drawn set
+        is answered exactly, all at once (one contraction with a batch
+        axis). On a
         diagram with hidden common causes (answers by an identification
         formula) the bootstrap of :class:`Estimator` is used instead.
         """
@@ -389,9 +399,14 @@ class PluginEstimator(ChecksIdentification, Estimator):
             return super()._interval_samples(queries, level, draws, seed)
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
-        if self.alpha == "auto":
-            return self._posterior_answers(queries, draws, seed,
-                                           lambda rng, v, n: mixed_dirichlet_rows(rng, self._counts[v], n))
+        if self._counts is not None:  # fitted with alpha="auto"
+
+            def draw_cpt(rng, v, n):
+                if v not in self._row_weights:
+                    self._row_weights[v] = row_prior_weights(self._counts[v])
+                return mixed_dirichlet_rows(rng, self._counts[v], n, self._row_weights[v])
+
+            return self._posterior_answers(queries, draws, seed, draw_cpt)
         return self._posterior_answers(queries, draws, seed, lambda rng, v, n: dirichlet_rows(rng, self._dirichlet[v], n))
 
     def _interval_include(self, queries) -> list:

@@ -744,13 +744,14 @@ class RelationalPluginEstimator(Estimator):
                 samples.append(answer.probs)
         samples = np.asarray(samples)
         if isinstance(point, SpilloverEffects):
-            return replace(point, intervals={name: Interval(level, samples[:, j], "posterior")
+            return replace(point, intervals={name: Interval(level, samples[:, j], "posterior",
+                                                            estimate=getattr(point, name))
                                              for j, name in enumerate(("own", "neighbours", "both"))})
         # a probability the counts alone make exactly 0 or 1 is never reached by a draw: the bound goes there
         # (as Estimator._counts_only_answers does for one table)
         include = boundary_values(_answer(self._counts_only_template(), skeleton, query).probs)
         return Distribution(point.variables, point.states, point.probs, description=point.description,
-                            interval=Interval(level, samples, "posterior", include))
+                            interval=Interval(level, samples, "posterior", include, estimate=point.probs))
 
     def _counts_only_template(self) -> Template:
         """The fitted template with unsmoothed CPTs (count / row total; a row never seen uniform)."""

@@ -260,7 +260,7 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
     posterior_ : dict
         Per mechanism, the decoder's CPT-shaped conditionals and the
         :class:`~intervgnn.models.shrinkage.Mixture` over (strength,
-        alpha): what :meth:`query_interval` draws CPTs from.
+        alpha): with ``counts_``, what :meth:`query_interval` draws CPTs from.
     models_ : list of InterventionalVGAE
         The cross-fitted models.
     train_results_ : list of TrainResult
@@ -479,27 +479,33 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
         self.families_ = families
         self.neural_share_ = shares
         self.posterior_ = posterior
+        self._row_weights = {}  # per mechanism, the counts-only rows' weights over the smoothing grid (intervals)
         self.models_ = models
         self.train_results_: list[TrainResult] = results
         self.skeleton_ = skeleton
         return self
 
     def _draw_cpt(self, rng: np.random.Generator, key) -> np.ndarray:
-        """One CPT of mechanism ``key`` from the posterior its fitted CPT is the mean of.
+        """One CPT of mechanism ``key`` drawn from its posterior (whose mean is nearly the fitted CPT).
 
         A candidate (strength s, alpha) is picked by its weight, then every
         row from Dirichlet(counts + s * decoder + alpha); the counts-only
         candidate draws its rows from the plug-in's posterior with the
         smoothing weighed per row
         (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`), as the
-        single-table neural estimator's posterior intervals do.
+        single-table neural estimator's posterior intervals do (the fitted CPT
+        uses one smoothing value there, so it is not quite this posterior's
+        mean; the interval always holds the answer).
         """
-        from ..estimators.plugin import dirichlet_draws, mixed_dirichlet_rows
+        from ..estimators.plugin import dirichlet_draws, mixed_dirichlet_rows, row_prior_weights
 
         base, mix = self.posterior_[key]
         j = rng.choice(mix.weight.size, p=mix.weight)
         if mix.strength[j] == 0:
-            return mixed_dirichlet_rows(rng, self.counts_[key], 1)[0]
+            cache = self.__dict__.setdefault("_row_weights", {})
+            if key not in cache:
+                cache[key] = row_prior_weights(self.counts_[key])
+            return mixed_dirichlet_rows(rng, self.counts_[key], 1, cache[key])[0]
         return dirichlet_draws(rng, mix.dirichlet_params(self.counts_[key], base, np.array([j]))[0])
 
     def _mech_edges(self, m: Mechanism, i, own, hits, degree, schema, keys, agg_node, offsets):
