@@ -378,6 +378,7 @@ def _relational_fit_line(est, data) -> str:
 def cmd_relational_fit(args) -> int:
     from .relational import read_template, write_template
 
+    _check_writable(args.out, "--out")  # before the fit, not after minutes of it
     structure = read_template(args.template, cpts=False)
     data = _relational_data(args, structure.schema)
     est = _relational_estimator(args).fit(data, structure)

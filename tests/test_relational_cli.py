@@ -105,3 +105,7 @@ def test_bad_files_are_one_line_errors(coop, capsys, tmp_path):
     code, _, err = run(capsys, "relational-fit", "--template", folder / "structure.yaml", "--data", tmp_path / "none",
                        "--out", tmp_path / "x.yaml")
     assert code == 2 and "no such folder" in err
+    # an output that cannot be written is refused before the fit, not after it
+    code, out, err = run(capsys, "relational-fit", "--template", folder / "structure.yaml", "--data", folder / "data",
+                         "--out", tmp_path / "missing" / "x.yaml")
+    assert code == 2 and "--out: cannot write" in err and "does not exist" in err and "fitted" not in out
