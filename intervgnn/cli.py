@@ -133,6 +133,7 @@ def _fit_summary(est, table) -> str:
 def cmd_fit(args) -> int:
     from .estimators import NeuralEstimator
 
+    _check_folder_writable(args.out, "--out")  # before the training, not after it
     table, graph, _ = _rows_and_graph(args)
     est = NeuralEstimator(**_neural_settings(args)).fit(table, graph)
     est.save(args.out)
@@ -236,6 +237,19 @@ def _check_writable(path: str, option: str) -> None:
         raise IntervgnnError(f"{option}: '{path}' is a folder; give a file name")
     if not os.path.isdir(folder):
         raise IntervgnnError(f"{option}: cannot write '{path}': the folder '{folder}' does not exist")
+    if not os.access(folder, os.W_OK):
+        raise IntervgnnError(f"{option}: cannot write '{path}': the folder '{folder}' is not writable")
+
+
+def _check_folder_writable(path: str, option: str) -> None:
+    """Refuse, before any fitting, an output folder that is a file, lies under one, or cannot be created."""
+    if os.path.exists(path) and not os.path.isdir(path):
+        raise IntervgnnError(f"{option}: '{path}' is a file; give a folder")
+    folder = os.path.abspath(path)
+    while not os.path.isdir(folder):
+        if os.path.exists(folder):
+            raise IntervgnnError(f"{option}: cannot create '{path}': '{folder}' is a file")
+        folder = os.path.dirname(folder)
     if not os.access(folder, os.W_OK):
         raise IntervgnnError(f"{option}: cannot write '{path}': the folder '{folder}' is not writable")
 

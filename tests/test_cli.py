@@ -47,15 +47,24 @@ def test_sample_writes_csv(capsys, tmp_path):
     assert path.read_text().splitlines()[0] == "A,S,E,O,R,T"
 
 
-def test_write_failure_is_a_clean_error(capsys, tmp_path):
+def test_write_failure_is_a_clean_error(capsys, tmp_path, monkeypatch):
     blocker = tmp_path / "afile"
     blocker.write_text("not a folder")
     rc, _, err = run(capsys, "sample", "--network", "survey", "--rows", "5", "--out", str(blocker / "rows.csv"))
     assert rc == 2
     assert err.startswith("intervgnn: error: ") and "rows.csv: cannot write the file (NotADirectoryError" in err
+    # the model folder is checked before any training (a folder under a file cannot be made)
+    from intervgnn.estimators import NeuralEstimator
+
+    def too_late(*args, **kwargs):
+        raise AssertionError("trained before --out was checked")
+
+    monkeypatch.setattr(NeuralEstimator, "fit", too_late)
     rc, _, err = run(capsys, "fit", "--network", "cancer", "--rows", "300", "--steps", "2", "--quiet",
                      "--out", str(blocker / "model"))
-    assert rc == 2 and "model: cannot create the folder (" in err
+    assert rc == 2 and f"--out: cannot create '{blocker / 'model'}': '{blocker}' is a file" in err
+    rc, _, err = run(capsys, "fit", "--network", "cancer", "--rows", "300", "--out", str(blocker))
+    assert rc == 2 and "is a file; give a folder" in err
 
 
 def test_demo_runs(capsys):

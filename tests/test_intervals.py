@@ -122,6 +122,8 @@ def test_an_interval_always_holds_its_own_answer():
     assert e.lower <= e.estimate <= e.upper
     iv = Interval(0.9, np.array([[0.5], [0.6], [0.7]]), "test", estimate=np.array([0.9]))
     assert iv.upper[0] == 0.9 and iv.lower[0] < 0.6
+    contrast = Interval(0.9, np.array([0.1, 0.2, 0.3]), "test", estimate=-0.05)  # an effect contrast: a scalar
+    assert contrast.lower == -0.05 and 0.2 < contrast.upper <= 0.3
 
 
 def test_plugin_intervals_cover_the_exact_answers_most_of_the_time():

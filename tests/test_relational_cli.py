@@ -95,7 +95,7 @@ def test_bad_queries_are_one_line_errors(coop, capsys, argv, message):
     assert code == 2 and message in err and err.startswith("intervgnn: error:")
 
 
-def test_bad_files_are_one_line_errors(coop, capsys, tmp_path):
+def test_bad_files_are_one_line_errors(coop, capsys, tmp_path, monkeypatch):
     folder, _, _ = coop
     code, _, err = run(capsys, "relational-fit", "--template", folder / "structure.yaml", "--out", tmp_path / "x.yaml")
     assert code == 2 and "--data FOLDER (CSV files) or --sqlite FILE" in err
@@ -105,7 +105,13 @@ def test_bad_files_are_one_line_errors(coop, capsys, tmp_path):
     code, _, err = run(capsys, "relational-fit", "--template", folder / "structure.yaml", "--data", tmp_path / "none",
                        "--out", tmp_path / "x.yaml")
     assert code == 2 and "no such folder" in err
-    # an output that cannot be written is refused before the fit, not after it
-    code, out, err = run(capsys, "relational-fit", "--template", folder / "structure.yaml", "--data", folder / "data",
-                         "--out", tmp_path / "missing" / "x.yaml")
-    assert code == 2 and "--out: cannot write" in err and "does not exist" in err and "fitted" not in out
+    # an output that cannot be written is refused before the data are read and fitted, not after the fit
+    import intervgnn.cli as cli
+
+    def too_late(*args, **kwargs):
+        raise AssertionError("the data were read before --out was checked")
+
+    monkeypatch.setattr(cli, "_relational_data", too_late)
+    code, _, err = run(capsys, "relational-fit", "--template", folder / "structure.yaml", "--data", folder / "data",
+                       "--out", tmp_path / "missing" / "x.yaml")
+    assert code == 2 and "--out: cannot write" in err and "does not exist" in err

@@ -265,7 +265,7 @@ def test_relational_intervals_from_the_posterior_of_the_tied_cpts(chain, fitted)
     plug.set_params(alpha=50.0)
     np.testing.assert_array_equal(plug.query_interval(q, draws=3000, seed=1).interval.samples, d.interval.samples)
     plug.set_params(alpha=1.0)
-    # every query kind gets one; the neural estimator draws from the mixture its CPTs are the mean of. Grove 2
+    # every query kind gets one; the neural estimator draws from the mixture over strengths behind its CPTs. Grove 2
     # is supplied by nurseries, so its own contrast is far from zero
     spill_q = SpilloverQuery(("grove", "2", "Vigour"), "nursery", "Stock", "good", "poor", "high")
     for est in (plug, fitted):

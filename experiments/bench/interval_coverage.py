@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import time
 
 import numpy as np
@@ -76,8 +77,9 @@ def main():
     print(f"coverage of nominal {args.level:.0%} intervals (share of exact probabilities inside), seeds {args.seeds}")
     print(f"{'estimator':<8} {'network':<22} {'rows':>7} {'queries':>7} {'coverage':>9} {'se':>6} {'at 0/1':>7} {'conf. cov':>9} "
           f"{'width':>7} {'miss by':>8} {'s':>6}")
-    for name in args.networks:
-        net = ig.load_network(name)
+    for spec in args.networks:
+        net = ig.load_network(spec)
+        name = os.path.basename(spec) if os.path.exists(spec) else spec  # a BIF file: its name, not its path
         queries = make_query_set(net, n=args.queries, kinds=("do",), seed=0)
         for n in args.rows:
             for est_name in args.estimators:
@@ -115,7 +117,7 @@ def main():
                 conf = float(np.concatenate(conf_hits).mean()) if conf_hits else float("nan")
                 width = float(np.concatenate(widths).mean())
                 offs = np.concatenate(offs)
-                miss_by = float(np.median(offs)) if offs.size else 0.0
+                miss_by = float(np.median(offs)) if offs.size else float("nan")  # NaN: nothing missed
                 seconds = time.perf_counter() - t0
                 records.append({"estimator": est_name, "network": name, "rows": n, "queries": len(queries),
                                 "probabilities": int(hits.size), "coverage": cov, "coverage_se": se,

@@ -469,6 +469,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         self.mixtures_: dict[int, Mixture] = {}
         self._count_rows: dict[int, tuple[np.ndarray, np.ndarray]] = {}
         self._posterior: dict[str, tuple] = {}  # per variable: counts, base, mixture, CPT shape (exact mode)
+        self._row_weights: dict[str, np.ndarray] = {}  # per variable, the counts-only rows' weights (intervals)
         cpts: dict[str, np.ndarray] = {}
         for v in free:
             start, cfgs = rows_of[v]
@@ -594,7 +595,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """
         if not self._posterior_ready():
             return super()._interval_samples(queries, level, draws, seed)
-        from .plugin import dirichlet_draws, mixed_dirichlet_rows
+        from .plugin import dirichlet_draws, mixed_dirichlet_rows, row_prior_weights
 
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
@@ -605,7 +606,10 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
             plain = mix.strength[pick] == 0  # the counts-only candidate: the plug-in's posterior
             if plain.any():
-                out[plain] = mixed_dirichlet_rows(rng, counts, int(plain.sum()))
+                cache = self.__dict__.setdefault("_row_weights", {})  # reset by fit
+                if v not in cache:
+                    cache[v] = row_prior_weights(counts)
+                out[plain] = mixed_dirichlet_rows(rng, counts, int(plain.sum()), cache[v])
             return out.reshape((n,) + shape)
 
         return self._posterior_answers(queries, draws, seed, draw_cpt)

@@ -701,14 +701,16 @@ class RelationalPluginEstimator(Estimator):
         """:meth:`query` with a central ``level`` interval from the posterior of the tied CPTs.
 
         Each of ``draws`` (default 100) CPT sets is drawn from the posterior
-        the fitted CPTs are the mean of (:meth:`_draw_cpt`: for the plug-in,
-        every row a Dirichlet of its counts plus ``alpha``), grounded on the
+        of the tied CPTs (:meth:`_draw_cpt`: for the plug-in, every row a
+        Dirichlet of its counts plus ``alpha``, whose mean the fitted CPTs
+        are), grounded on the
         skeleton and answered exactly; the bounds are the quantiles of those
         answers, on every probability of a unit or population answer and on
         each of a spill-over answer's three contrasts. Like every interval
         of the package it covers the uncertainty from the data, not the
         template's assumptions. A probability the counts alone make exactly
-        0 or 1 keeps that value inside its interval (no draw reaches it).
+        0 or 1 keeps that value inside its interval (no draw reaches it),
+        and the interval always holds the answer itself.
         Each draw grounds the query's part of the skeleton again: a unit
         query costs draws times a pruned grounding, a population query
         draws times the whole skeleton. A query the exact engine cannot
