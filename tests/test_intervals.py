@@ -160,6 +160,11 @@ def test_bootstrap_interval_effect_and_cache():
     assert effect.estimate == pytest.approx(est.effect("Dyspnoea", "Smoker", "True", "False", "True"))
     payload = effect.to_dict()
     assert payload["method"] == "bootstrap" and "probability_positive" in payload
+    # the refits take the settings of the fit: a changed setting needs a refit before it counts (as for points)
+    est.set_params(classifier="naive_bayes")
+    est.query_interval("Dyspnoea", do={"Smoker": "True"}, draws=10, seed=7)
+    assert all(r.classifier == "logistic" for r in est._bootstrap_refits[2])
+    est.set_params(classifier="logistic")
     est.fit(rows, net.graph)  # a refit makes the kept refits stale
     est.query_interval("Dyspnoea", do={"Smoker": "True"}, draws=12, seed=2)
     assert est._bootstrap_refits[2] is not first

@@ -466,9 +466,8 @@ class Estimator:
         cached = self.__dict__.get("_bootstrap_refits")
         if cached is not None and cached[0] is rows and cached[1] == (draws, seed):
             return cached[2]
-        table, graph = rows
+        table, graph, params = rows  # the settings of the fit, not the current ones (set_params needs a refit)
         rng = np.random.default_rng(check_seed(seed))
-        params = self.get_params(deep=False)
         refits = []
         for b in range(draws):
             settings = dict(params)

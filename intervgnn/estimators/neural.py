@@ -406,7 +406,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             except BaseException:
                 self._forget()
                 raise
-        self._fitted_rows = (table, graph)  # for bootstrap intervals
+        self._fitted_rows = (table, graph, self.get_params(deep=False))  # for bootstrap intervals: rows and settings
         return self
 
     def _forget(self) -> None:
@@ -778,7 +778,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
                 "fit the model again"
             ) from None
         if table is not None and table.n_rows == rows:  # the rows it was fitted on: intervals resample them
-            est._fitted_rows = (table, saved_graph)
+            est._fitted_rows = (table, saved_graph, est.get_params(deep=False))
         return est
 
 

@@ -362,7 +362,7 @@ class PluginEstimator(ChecksIdentification, Estimator):
         self.states_ = states
         self.network_ = CausalNetwork(factors, states, cpts, name="plug-in")
         self._identifications = {}
-        self._fitted_rows = (table, graph)  # for bootstrap intervals
+        self._fitted_rows = (table, graph, self.get_params(deep=False))  # for bootstrap intervals: rows and settings
         return self
 
     # ------------------------------------------------------------ intervals
