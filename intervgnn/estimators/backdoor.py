@@ -158,7 +158,7 @@ class BackdoorEstimator(Estimator):
                 self.outcome_models_[(x, y)] = self._outcome_model(table, usable[x], x, y)
             except UnsupportedQuery as exc:
                 self.refusals_[(x, y)] = str(exc)
-        self._fitted_rows = (table, graph, self.get_params(deep=False))  # for bootstrap intervals: rows and settings
+        self._keep_fitted_rows(table, graph)  # for bootstrap intervals
         return self
 
     def _new_classifier(self):

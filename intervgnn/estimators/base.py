@@ -336,11 +336,11 @@ class Estimator:
         params = counts.reshape(-1) + 0.5
         samples = dirichlet_rows(np.random.default_rng(check_seed(seed)), params, draws).reshape((draws,) + shape)
         boundary = boundary_values(counts / n)
+        mean = (params / params.sum()).reshape(shape)
         out = Distribution(
-            q.targets, [table.states[t] for t in q.targets], (params / params.sum()).reshape(shape),
+            q.targets, [table.states[t] for t in q.targets], mean,
             description=f"{q.describe()}, from the {n} experimental rows {self._experiment_text(q)} alone",
-            interval=Interval(level, samples, "experimental posterior", boundary,
-                              estimate=(params / params.sum()).reshape(shape)),
+            interval=Interval(level, samples, "experimental posterior", boundary, estimate=mean),
         )
         out.experimental_rows = n
         out.boundary = boundary
@@ -454,6 +454,10 @@ class Estimator:
                 batch = {v: draw_cpt(rng, v, draws) for v in needed}
         batch = {v: batch[v] for v in needed}
         return [engine.query_array_batch(q.targets, batch, codes, evidence) for q, codes, evidence in shaped]
+
+    def _keep_fitted_rows(self, table, graph) -> None:
+        """Keep the rows and the settings of this fit: bootstrap refits resample the one with the other."""
+        self._fitted_rows = (table, graph, self.get_params(deep=False))
 
     def _bootstrap(self, draws: int, seed: int) -> list:
         self._check_fitted()

@@ -82,7 +82,7 @@ class EstimandEstimator(Estimator):
         self.graph_ = graph
         self.states_ = table.states
         self.oracle_ = counts_oracle(table, float(self.alpha))
-        self._fitted_rows = (table, graph, self.get_params(deep=False))  # for bootstrap intervals: rows and settings
+        self._keep_fitted_rows(table, graph)  # for bootstrap intervals
         return self
 
     def identification(self, target, do, given=None):

@@ -53,7 +53,7 @@ class NaiveEstimator(Estimator):
         self.states_ = table.states
         self.codes_ = table.codes
         self.columns_ = {v: j for j, v in enumerate(table.variables)}
-        self._fitted_rows = (table, graph, self.get_params(deep=False))  # for bootstrap intervals: rows and settings
+        self._keep_fitted_rows(table, graph)  # for bootstrap intervals
         return self
 
     def _answer(self, q: Query):

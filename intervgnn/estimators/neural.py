@@ -406,7 +406,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             except BaseException:
                 self._forget()
                 raise
-        self._fitted_rows = (table, graph, self.get_params(deep=False))  # for bootstrap intervals: rows and settings
+        self._keep_fitted_rows(table, graph)  # for bootstrap intervals
         return self
 
     def _forget(self) -> None:
@@ -595,7 +595,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """
         if not self._posterior_ready():
             return super()._interval_samples(queries, level, draws, seed)
-        from .plugin import dirichlet_draws, mixed_dirichlet_rows, row_prior_weights
+        from .plugin import dirichlet_draws, kept_mixed_dirichlet_rows
 
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
@@ -605,11 +605,9 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             pick = rng.choice(mix.weight.size, size=n, p=mix.weight)
             out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
             plain = mix.strength[pick] == 0  # the counts-only candidate: the plug-in's posterior
-            if plain.any():
-                cache = self.__dict__.setdefault("_row_weights", {})  # reset by fit
-                if v not in cache:
-                    cache[v] = row_prior_weights(counts)
-                out[plain] = mixed_dirichlet_rows(rng, counts, int(plain.sum()), cache[v])
+            if plain.any():  # the cache is emptied by fit; a loaded model starts one here
+                cache = self.__dict__.setdefault("_row_weights", {})
+                out[plain] = kept_mixed_dirichlet_rows(cache, v, rng, counts, int(plain.sum()))
             return out.reshape((n,) + shape)
 
         return self._posterior_answers(queries, draws, seed, draw_cpt)
@@ -778,7 +776,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
                 "fit the model again"
             ) from None
         if table is not None and table.n_rows == rows:  # the rows it was fitted on: intervals resample them
-            est._fitted_rows = (table, saved_graph, est.get_params(deep=False))
+            est._keep_fitted_rows(table, saved_graph)
         return est
 
 

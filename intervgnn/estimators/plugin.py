@@ -14,7 +14,7 @@ from .estimand import network_oracle
 
 __all__ = [
     "PluginEstimator", "count_cpts", "count_table", "loo_alpha", "observational_dag", "AUTO_ALPHAS", "MAX_CPT_CELLS",
-    "row_prior_weights", "mixed_dirichlet_rows",
+    "dirichlet_params", "row_prior_weights", "mixed_dirichlet_rows",
 ]
 
 
@@ -104,9 +104,19 @@ def counts_only_rows(counts: np.ndarray) -> np.ndarray:
     return np.divide(counts, seen, out=np.full(counts.shape, 1.0 / counts.shape[-1]), where=seen > 0)
 
 
+def dirichlet_params(counts: np.ndarray, alpha: float) -> np.ndarray:
+    """Each row's posterior Dirichlet parameters ``counts + alpha`` (states on the last axis); all ones for a row of total 0.
+
+    A row of total 0 is one never seen with ``alpha = 0``: its smoothed
+    row, the parameters over their total, is the uniform one.
+    """
+    params = np.asarray(counts, dtype=np.float64) + alpha
+    params[params.sum(axis=-1) <= 0] = 1.0
+    return params
+
+
 def count_cpts(
-    table: Table, graph: CausalGraph, alpha, observational=(), dirichlet: dict | None = None,
-    counts_only: dict | None = None, raw: dict | None = None,
+    table: Table, graph: CausalGraph, alpha, observational=(), raw: dict | None = None,
 ) -> dict[str, np.ndarray]:
     """Smoothed CPTs ``(count + alpha) / (row total + alpha * k)``, axes ``(*parents, v)``.
 
@@ -116,11 +126,8 @@ def count_cpts(
     in ``observational`` count only the rows where no variable was set.
     Parent configurations never seen get the uniform row. ``alpha="auto"``
     picks, per variable, the value of :data:`AUTO_ALPHAS` with the best
-    leave-one-out log-likelihood. ``dirichlet``, if given, receives per
-    variable the rows' posterior Dirichlet parameters ``count + alpha``
-    (all ones for a row never seen with ``alpha = 0``), CPT-shaped;
-    ``counts_only``, if given, the unsmoothed CPTs (count / row total, the
-    uniform row where never seen); ``raw``, if given, the counts themselves.
+    leave-one-out log-likelihood. ``raw``, if given, receives per variable
+    the counts themselves, CPT-shaped.
     """
     states = table.states
     cpts = {}
@@ -131,18 +138,10 @@ def count_cpts(
         k = counts.shape[1]
         cards = [len(states[p]) for p in graph.parents(v)]
         a = loo_alpha(counts) if alpha == "auto" else float(alpha)
-        if counts_only is not None:
-            counts_only[v] = counts_only_rows(counts).reshape(cards + [k])
         if raw is not None:
-            raw[v] = counts.reshape(cards + [k]).copy()
-        counts += a
-        totals = counts.sum(axis=1, keepdims=True)
-        empty = totals[:, 0] <= 0
-        counts[empty] = 1.0
-        totals[empty] = k
-        cpts[v] = (counts / totals).reshape(cards + [k])
-        if dirichlet is not None:
-            dirichlet[v] = counts.reshape(cards + [k])
+            raw[v] = counts.reshape(cards + [k])
+        params = dirichlet_params(counts, a)
+        cpts[v] = (params / params.sum(axis=1, keepdims=True)).reshape(cards + [k])
     return cpts
 
 
@@ -239,6 +238,16 @@ def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, pseudo: float = 1.0)
     logpost = np.log(w)[:, None] + loglik
     post = np.exp(logpost - logpost.max(axis=0, keepdims=True))
     return post / post.sum(axis=0, keepdims=True)
+
+
+def kept_mixed_dirichlet_rows(cache: dict, key, rng: np.random.Generator, counts: np.ndarray, draws: int) -> np.ndarray:
+    """:func:`mixed_dirichlet_rows`, the row weights of ``key``'s ``counts`` computed once and kept in ``cache``.
+
+    The caller empties ``cache`` when it is fitted again.
+    """
+    if key not in cache:
+        cache[key] = row_prior_weights(counts)
+    return mixed_dirichlet_rows(rng, counts, draws, cache[key])
 
 
 def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int,
@@ -351,18 +360,15 @@ class PluginEstimator(ChecksIdentification, Estimator):
                 f"observational rows (rows where nothing was set) to count {', '.join(confounded[:5])}"
                 + (", ..." if len(confounded) > 5 else "")
             )
-        self._dirichlet = {}
-        self._counts_only = {}
-        # with alpha="auto" the interval weighs the smoothing per row (see _interval_samples): it needs the counts
-        self._counts = {} if self.alpha == "auto" else None
+        self._counts = {}  # the posterior intervals draw from them (see _interval_samples)
         self._row_weights = {}
-        cpts = count_cpts(table, factors, self.alpha, observational=confounded, dirichlet=self._dirichlet,
-                          counts_only=self._counts_only, raw=self._counts)
+        cpts = count_cpts(table, factors, self.alpha, observational=confounded, raw=self._counts)
+        self._counts_only = {v: counts_only_rows(c) for v, c in self._counts.items()}
         self.graph_ = graph
         self.states_ = states
         self.network_ = CausalNetwork(factors, states, cpts, name="plug-in")
         self._identifications = {}
-        self._fitted_rows = (table, graph, self.get_params(deep=False))  # for bootstrap intervals: rows and settings
+        self._keep_fitted_rows(table, graph)
         return self
 
     # ------------------------------------------------------------ intervals
@@ -399,15 +405,14 @@ class PluginEstimator(ChecksIdentification, Estimator):
             return super()._interval_samples(queries, level, draws, seed)
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
-        if self._counts is not None:  # fitted with alpha="auto"
-
+        alpha = self._fitted_rows[2]["alpha"]  # the setting of the fit (set_params without a refit changes nothing)
+        if alpha == "auto":
             def draw_cpt(rng, v, n):
-                if v not in self._row_weights:
-                    self._row_weights[v] = row_prior_weights(self._counts[v])
-                return mixed_dirichlet_rows(rng, self._counts[v], n, self._row_weights[v])
-
-            return self._posterior_answers(queries, draws, seed, draw_cpt)
-        return self._posterior_answers(queries, draws, seed, lambda rng, v, n: dirichlet_rows(rng, self._dirichlet[v], n))
+                return kept_mixed_dirichlet_rows(self._row_weights, v, rng, self._counts[v], n)
+        else:
+            def draw_cpt(rng, v, n):
+                return dirichlet_rows(rng, dirichlet_params(self._counts[v], float(alpha)), n)
+        return self._posterior_answers(queries, draws, seed, draw_cpt)
 
     def _interval_include(self, queries) -> list:
         """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""

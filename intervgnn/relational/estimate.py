@@ -41,6 +41,7 @@ import numpy as np
 from ..distribution import Distribution, Interval, boundary_values
 from ..errors import DataError, GraphError, NetworkError, NotFittedError, QueryError, did_you_mean, short_repr, shorten
 from ..estimators.base import Estimator, check_alpha
+from ..estimators.plugin import counts_only_rows, dirichlet_draws, dirichlet_params
 from .data import RelationalData
 from .grounding import MAX_GROUND_VARIABLES, _related, ground
 from .model import Mechanism, Schema, Template, node_name, split_node_name
@@ -621,14 +622,11 @@ class RelationalPluginEstimator(Estimator):
         for key, m in template.mechanisms.items():
             aggs = self._aggregates(m)
             c = _count_mechanism(data, m, aggs, related)
-            smoothed = c + alpha
-            totals = smoothed.sum(axis=-1, keepdims=True)
-            empty = totals[..., 0] <= 0
-            smoothed[empty] = 1.0
-            totals[empty] = smoothed.shape[-1]
+            params = dirichlet_params(c, alpha)
             c.setflags(write=False)
             counts[key] = c
-            mechs.append(Mechanism(m.entity, m.attribute, smoothed / totals, parents=m.parents, aggregates=aggs))
+            mechs.append(Mechanism(m.entity, m.attribute, params / params.sum(axis=-1, keepdims=True),
+                                   parents=m.parents, aggregates=aggs))
         self.template_ = Template(template.schema, mechs)
         self.counts_ = counts
         self.alpha_ = alpha
@@ -690,11 +688,7 @@ class RelationalPluginEstimator(Estimator):
 
     def _draw_cpt(self, rng: np.random.Generator, key) -> np.ndarray:
         """One CPT of mechanism ``key`` from its posterior: each row Dirichlet(counts + alpha), a row never seen uniform."""
-        from ..estimators.plugin import dirichlet_draws
-
-        params = np.asarray(self.counts_[key], dtype=np.float64) + self.alpha_
-        params[params.sum(axis=-1) <= 0] = 1.0
-        return dirichlet_draws(rng, params)
+        return dirichlet_draws(rng, dirichlet_params(self.counts_[key], self.alpha_))
 
     def query_interval(self, query, skeleton: Skeleton | None = None, level: float = 0.95, draws: int | None = None,
                        seed: int = 0):
@@ -757,8 +751,6 @@ class RelationalPluginEstimator(Estimator):
 
     def _counts_only_template(self) -> Template:
         """The fitted template with unsmoothed CPTs (count / row total; a row never seen uniform)."""
-        from ..estimators.plugin import counts_only_rows
-
         return Template(self.template_.schema, [
             Mechanism(m.entity, m.attribute, counts_only_rows(self.counts_[key]), parents=m.parents,
                       aggregates=m.aggregates)

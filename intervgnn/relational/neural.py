@@ -497,15 +497,13 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
         uses one smoothing value there, so it is not quite this posterior's
         mean; the interval always holds the answer).
         """
-        from ..estimators.plugin import dirichlet_draws, mixed_dirichlet_rows, row_prior_weights
+        from ..estimators.plugin import dirichlet_draws, kept_mixed_dirichlet_rows
 
         base, mix = self.posterior_[key]
         j = rng.choice(mix.weight.size, p=mix.weight)
-        if mix.strength[j] == 0:
+        if mix.strength[j] == 0:  # the cache is emptied by fit
             cache = self.__dict__.setdefault("_row_weights", {})
-            if key not in cache:
-                cache[key] = row_prior_weights(self.counts_[key])
-            return mixed_dirichlet_rows(rng, self.counts_[key], 1, cache[key])[0]
+            return kept_mixed_dirichlet_rows(cache, key, rng, self.counts_[key], 1)[0]
         return dirichlet_draws(rng, mix.dirichlet_params(self.counts_[key], base, np.array([j]))[0])
 
     def _mech_edges(self, m: Mechanism, i, own, hits, degree, schema, keys, agg_node, offsets):
