@@ -14,7 +14,7 @@ from .estimand import network_oracle
 
 __all__ = [
     "PluginEstimator", "count_cpts", "count_table", "loo_alpha", "observational_dag", "AUTO_ALPHAS", "MAX_CPT_CELLS",
-    "dirichlet_params", "row_prior_weights", "mixed_dirichlet_rows",
+    "dirichlet_params", "row_base_measures", "row_prior_weights", "mixed_dirichlet_rows",
 ]
 
 
@@ -181,11 +181,42 @@ def dirichlet_draws(rng: np.random.Generator, params: np.ndarray) -> np.ndarray:
     return g / g.sum(axis=-1, keepdims=True)
 
 
-def _row_log_marginals(flat: np.ndarray, grid: np.ndarray) -> np.ndarray:
-    """``[J, R]``: log probability of each row's sequence of states under Dirichlet(a, ..., a) for every ``a`` of ``grid``.
+def row_base_measures(counts: np.ndarray, shrink: float = 1.0) -> np.ndarray:
+    """``[R, k]``: for each CPT row, the mean shape of the variable's *other* seen rows (each row a probability vector).
 
-    The Dirichlet-multinomial: :math:`\\log\\Gamma(ka) - \\log\\Gamma(N + ka)
-    + \\sum_s [\\log\\Gamma(n_s + a) - \\log\\Gamma(a)]` (the multinomial
+    Every seen row enters as its frequencies, each row weighed alike
+    however often it was seen, so the common row does not make the shape
+    (the mean of the rows' frequencies is unbiased for the mean of the rows'
+    probabilities, which the Dirichlet prior centred on it has as its mean;
+    smoothing each row first would pull the shape's rare states up).
+    A row's own counts are left out of its base measure (leave one out),
+    so a prior centred on it never counts the row twice, and ``shrink``
+    uniform pseudo-rows join the others, so that a variable of two or three
+    rows borrows little from them. A row never seen gets the mean of all
+    seen rows (shrunk alike); with no row seen every base measure is
+    uniform. ``shrink`` must be positive.
+    """
+    if not shrink > 0:
+        raise ValueError(f"shrink must be positive, got {shrink!r}")
+    counts = np.asarray(counts, dtype=np.float64)
+    flat = counts.reshape(-1, counts.shape[-1])
+    k = flat.shape[1]
+    seen = flat.sum(axis=1) > 0
+    freq = counts_only_rows(flat)
+    total = freq[seen].sum(axis=0) + shrink / k
+    n = seen.sum() + shrink
+    out = np.where(seen[:, None], total - freq, total) / np.where(seen, n - 1, n)[:, None]
+    return out / out.sum(axis=1, keepdims=True)
+
+
+def _row_log_marginals(flat: np.ndarray, grid: np.ndarray, bases: np.ndarray) -> np.ndarray:
+    """``[2J, R]``: log probability of each row's sequence of states under each candidate prior.
+
+    Rows ``0 .. J-1``: Dirichlet(a, ..., a) for every ``a`` of ``grid``;
+    rows ``J .. 2J-1``: Dirichlet(k a m_r), centred on the row's base measure
+    ``bases[r]`` with the same total strength. The Dirichlet-multinomial:
+    :math:`\\log\\Gamma(B) - \\log\\Gamma(N + B) + \\sum_s [\\log\\Gamma(n_s + b_s) -
+    \\log\\Gamma(b_s)]` with :math:`B = \\sum_s b_s` (the multinomial
     coefficient, the same under every prior, left out). One ``[R, k]``
     temporary at a time.
     """
@@ -193,36 +224,49 @@ def _row_log_marginals(flat: np.ndarray, grid: np.ndarray) -> np.ndarray:
 
     k = flat.shape[1]
     total = flat.sum(axis=1)
-    out = np.empty((grid.size, flat.shape[0]))
+    out = np.empty((2 * grid.size, flat.shape[0]))
     for j, a in enumerate(grid):
         out[j] = gammaln(k * a) - gammaln(total + k * a) + gammaln(flat + a).sum(axis=1) - k * gammaln(a)
+        b = k * a * bases
+        out[grid.size + j] = (gammaln(k * a) - gammaln(total + k * a)
+                              + (gammaln(flat + b) - gammaln(b)).sum(axis=1))
     return out
 
 
-def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, pseudo: float = 1.0) -> np.ndarray:
-    r"""``[J, R]``: each CPT row's posterior weights over the smoothing values ``grid`` (columns sum to one).
+def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, pseudo: float = 1.0,
+                      bases: np.ndarray | None = None) -> np.ndarray:
+    r"""``[2J, R]``: each CPT row's posterior weights over the candidate priors (columns sum to one).
 
     ``counts`` is ``[R, k]`` or CPT-shaped (states on the last axis; rows
     in C order). A hierarchical model: every row of the variable draws its
-    prior Dirichlet(a, ..., a) from the ``grid`` (by default
-    :data:`AUTO_ALPHAS`, from nearly deterministic rows at 0.01 to nearly
-    uniform ones at 3) with shared weights :math:`w`, then its
-    probabilities from that prior. The weights are fitted by empirical
-    Bayes, maximising the rows' Dirichlet-multinomial marginal likelihood
-    (EM over the rows seen), with ``pseudo`` extra responsibility per value
-    (a Dirichlet(1 + ``pseudo``) prior on :math:`w`) so that a variable of
+    prior from ``2J`` candidates with shared weights :math:`w`, then its
+    probabilities from that prior. The candidates are, for every ``a`` of
+    ``grid`` (by default :data:`AUTO_ALPHAS`, from nearly deterministic
+    rows at 0.01 to nearly uniform ones at 3), the symmetric Dirichlet(a,
+    ..., a) (first ``J``) and the Dirichlet of the same total strength
+    centred on the shape the variable's other rows share,
+    Dirichlet(k a m_r) with m_r from :func:`row_base_measures` (``bases``,
+    computed from ``counts`` where not given; last ``J``). The second kind
+    holds where every row of a variable leans the same way (a cost that is
+    mostly low in every row): a symmetric prior would pull every row's
+    rare states up alike, and the errors add up in an answer that sums
+    over many rows. The weights are fitted by empirical Bayes, maximising
+    the rows' Dirichlet-multinomial marginal likelihood (EM over the rows
+    seen), with ``pseudo`` extra responsibility per candidate (a
+    Dirichlet(1 + ``pseudo``) prior on :math:`w`) so that a variable of
     two or three seen rows does not pin its weights on whatever those rows
-    favour. Row :math:`r` then weighs value :math:`a_j` by
-    :math:`w_j\, p(n_r \mid a_j)`: a row seen ten times in one state keeps
-    some weight on values under which its probability is well short of 1;
+    favour. Row :math:`r` then weighs candidate :math:`j` by
+    :math:`w_j\, p(n_r \mid j)`: a row seen ten times in one state keeps
+    some weight on priors under which its probability is well short of 1;
     a row of a variable whose rows are all nearly deterministic, less. A
     row never seen gets :math:`w`.
     """
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
     grid = np.asarray(grid, dtype=np.float64)
-    loglik = _row_log_marginals(flat, grid)
-    n_cand = grid.size
+    bases = row_base_measures(flat) if bases is None else bases
+    loglik = _row_log_marginals(flat, grid, bases)
+    n_cand = loglik.shape[0]
     seen = flat.sum(axis=1) > 0
     w = np.full(n_cand, 1.0 / n_cand)
     if seen.any():
@@ -241,33 +285,42 @@ def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, pseudo: float = 1.0)
 
 
 def kept_mixed_dirichlet_rows(cache: dict, key, rng: np.random.Generator, counts: np.ndarray, draws: int) -> np.ndarray:
-    """:func:`mixed_dirichlet_rows`, the row weights of ``key``'s ``counts`` computed once and kept in ``cache``.
+    """:func:`mixed_dirichlet_rows`, the base measures and row weights of ``key``'s ``counts`` computed once and kept in ``cache``.
 
     The caller empties ``cache`` when it is fitted again.
     """
     if key not in cache:
-        cache[key] = row_prior_weights(counts)
-    return mixed_dirichlet_rows(rng, counts, draws, cache[key])
+        bases = row_base_measures(counts)
+        cache[key] = (bases, row_prior_weights(counts, bases=bases))
+    bases, weights = cache[key]
+    return mixed_dirichlet_rows(rng, counts, draws, weights, bases=bases)
 
 
 def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int,
-                         weights: np.ndarray | None = None, grid=AUTO_ALPHAS) -> np.ndarray:
+                         weights: np.ndarray | None = None, grid=AUTO_ALPHAS,
+                         bases: np.ndarray | None = None) -> np.ndarray:
     """``draws`` CPTs ``[draws, *counts.shape]``: every row drawn from its posterior under :func:`row_prior_weights`.
 
-    Per draw and row a smoothing value is picked by the row's weights
-    (``weights``, ``[J, R]``, computed from ``counts`` where not given), then
-    the row from Dirichlet(counts + that value). ``counts`` is CPT-shaped
-    (states on the last axis).
+    Per draw and row a candidate prior is picked by the row's weights
+    (``weights``, ``[2J, R]``, computed from ``counts`` where not given),
+    then the row from Dirichlet(counts + that prior's parameters).
+    ``counts`` is CPT-shaped (states on the last axis); ``bases`` are the
+    rows' base measures (:func:`row_base_measures`, computed where not
+    given).
     """
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
     grid = np.asarray(grid, dtype=np.float64)
-    cum = np.cumsum(row_prior_weights(flat, grid) if weights is None else weights, axis=0)  # [J, R]
+    bases = row_base_measures(flat) if bases is None else bases
+    weights = row_prior_weights(flat, grid, bases=bases) if weights is None else weights
+    cum = np.cumsum(weights, axis=0)  # [2J, R]
     u = rng.random((draws, flat.shape[0]))
     pick = np.zeros(u.shape, dtype=np.intp)
-    for j in range(grid.size - 1):  # one [draws, R] comparison per value, not a [draws, J, R] array
+    for j in range(cum.shape[0] - 1):  # one [draws, R] comparison per candidate, not a [draws, 2J, R] array
         pick += u > cum[j]
-    params = grid[pick][..., None] + flat  # [draws, R, k]
+    centred = pick >= grid.size
+    a = grid[pick % grid.size][..., None]  # [draws, R, 1]
+    params = np.where(centred[..., None], (flat.shape[1] * a) * bases, a) + flat  # [draws, R, k]
     return dirichlet_draws(rng, params).reshape((draws,) + counts.shape)
 
 
