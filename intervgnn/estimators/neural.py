@@ -27,6 +27,7 @@ from ..models.vgae import FamilyBatch, InterventionalVGAE, family_edges
 from ..query import Query, check_seed
 from ..table import Table
 from .base import ChecksIdentification, Estimator, check_fit_inputs
+from .plugin import RowPriors
 
 __all__ = ["NeuralEstimator", "NotIdentified", "WEIGHTS_FILE", "META_FILE", "CHECKPOINT_FORMAT"]
 
@@ -469,7 +470,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         self.mixtures_: dict[int, Mixture] = {}
         self._count_rows: dict[int, tuple[np.ndarray, np.ndarray]] = {}
         self._posterior: dict[str, tuple] = {}  # per variable: counts, base, mixture, CPT shape (exact mode)
-        self._row_weights: dict[str, np.ndarray] = {}  # per variable, the counts-only rows' weights (intervals)
+        self._row_weights: dict[str, RowPriors] = {}  # per variable, the counts-only rows' fitted prior (intervals)
         cpts: dict[str, np.ndarray] = {}
         for v in free:
             start, cfgs = rows_of[v]

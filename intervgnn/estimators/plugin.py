@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from ..bn.network import MAX_CPT_ENTRIES, MAX_NETWORK_ENTRIES, CausalNetwork
@@ -14,7 +16,7 @@ from .estimand import network_oracle
 
 __all__ = [
     "PluginEstimator", "count_cpts", "count_table", "loo_alpha", "observational_dag", "AUTO_ALPHAS", "MAX_CPT_CELLS",
-    "dirichlet_params", "row_base_measures", "row_prior_weights", "mixed_dirichlet_rows",
+    "dirichlet_params", "fit_row_priors", "RowPriors", "ROW_PRIOR_CENTRES", "row_prior_weights", "mixed_dirichlet_rows",
 ]
 
 
@@ -181,146 +183,192 @@ def dirichlet_draws(rng: np.random.Generator, params: np.ndarray) -> np.ndarray:
     return g / g.sum(axis=-1, keepdims=True)
 
 
-def row_base_measures(counts: np.ndarray, shrink: float = 1.0) -> np.ndarray:
-    """``[R, k]``: for each CPT row, the mean shape of the variable's *other* seen rows (each row a probability vector).
+#: learned centres of the row priors (beside the symmetric ones), see :func:`fit_row_priors`
+ROW_PRIOR_CENTRES = 2
 
-    Every seen row enters as its frequencies, each row weighed alike
-    however often it was seen, so the common row does not make the shape
-    (the mean of the rows' frequencies is unbiased for the mean of the rows'
-    probabilities, which the Dirichlet prior centred on it has as its mean;
-    smoothing each row first would pull the shape's rare states up).
-    A row's own counts are left out of its base measure (leave one out),
-    so a prior centred on it never counts the row twice, and ``shrink``
-    uniform pseudo-rows join the others, so that a variable of two or three
-    rows borrows little from them. A row never seen gets the mean of all
-    seen rows (shrunk alike); with no row seen every base measure is
-    uniform. ``shrink`` must be positive.
+
+@dataclass(frozen=True)
+class RowPriors:
+    """A variable's hierarchical row prior fitted by :func:`fit_row_priors`, and each row's posterior weights over it.
+
+    The candidates are, for every value ``a`` of ``grid`` (``J`` of them),
+    first the symmetric Dirichlet(a, ..., a), then for every centre ``c``
+    the Dirichlet(k a m_c) of the same total strength centred on the
+    centre's mean shape ``m_c``. A centre is kept as the responsibility
+    weighed sums of the seen rows' frequencies (``totals``, ``[K, k]``)
+    and the weights' sums (``sizes``, ``[K]``), with each row's own share
+    (``membership``, ``[K, R]``), so that every row's centre leaves the
+    row itself out (:meth:`centres`).
     """
-    if not shrink > 0:
-        raise ValueError(f"shrink must be positive, got {shrink!r}")
-    counts = np.asarray(counts, dtype=np.float64)
-    flat = counts.reshape(-1, counts.shape[-1])
+
+    grid: np.ndarray
+    totals: np.ndarray
+    sizes: np.ndarray
+    membership: np.ndarray
+    shrink: float
+    weights: np.ndarray  # [J (1 + K), R]: each row's posterior weights over the candidates (columns sum to one)
+
+    def centres(self, flat: np.ndarray) -> np.ndarray:
+        """``[K, R, k]``: every row's centres, its own frequencies left out and ``shrink`` uniform pseudo-rows added."""
+        return _loo_centres(flat, self.totals, self.sizes, self.membership, self.shrink)
+
+
+def _loo_centres(flat, totals, sizes, membership, shrink) -> np.ndarray:
     k = flat.shape[1]
-    seen = flat.sum(axis=1) > 0
-    freq = counts_only_rows(flat)
-    total = freq[seen].sum(axis=0) + shrink / k
-    n = seen.sum() + shrink
-    out = np.where(seen[:, None], total - freq, total) / np.where(seen, n - 1, n)[:, None]
-    return out / out.sum(axis=1, keepdims=True)
+    own = membership[..., None] * counts_only_rows(flat)[None]  # [K, R, k]; zero for a row never seen
+    m = (totals[:, None, :] - own + shrink / k) / (sizes[:, None] - membership + shrink)[..., None]
+    return m / m.sum(axis=-1, keepdims=True)
 
 
-def _row_log_marginals(flat: np.ndarray, grid: np.ndarray, bases: np.ndarray) -> np.ndarray:
-    """``[2J, R]``: log probability of each row's sequence of states under each candidate prior.
+def _candidate_log_marginals(flat: np.ndarray, grid: np.ndarray, centres: np.ndarray) -> np.ndarray:
+    """``[J (1 + K), R]``: log probability of each row's sequence of states under every candidate of :class:`RowPriors`.
 
-    Rows ``0 .. J-1``: Dirichlet(a, ..., a) for every ``a`` of ``grid``;
-    rows ``J .. 2J-1``: Dirichlet(k a m_r), centred on the row's base measure
-    ``bases[r]`` with the same total strength. The Dirichlet-multinomial:
-    :math:`\\log\\Gamma(B) - \\log\\Gamma(N + B) + \\sum_s [\\log\\Gamma(n_s + b_s) -
-    \\log\\Gamma(b_s)]` with :math:`B = \\sum_s b_s` (the multinomial
-    coefficient, the same under every prior, left out). One ``[R, k]``
-    temporary at a time.
+    The Dirichlet-multinomial: :math:`\\log\\Gamma(B) - \\log\\Gamma(N + B) +
+    \\sum_s [\\log\\Gamma(n_s + b_s) - \\log\\Gamma(b_s)]` with :math:`B = \\sum_s
+    b_s` (the multinomial coefficient, the same under every prior, left
+    out). A few ``[R, k]`` temporaries at a time.
     """
     from scipy.special import gammaln
 
     k = flat.shape[1]
     total = flat.sum(axis=1)
-    out = np.empty((2 * grid.size, flat.shape[0]))
+    n_grid = grid.size
+    out = np.empty((n_grid * (1 + centres.shape[0]), flat.shape[0]))
     for j, a in enumerate(grid):
-        out[j] = gammaln(k * a) - gammaln(total + k * a) + gammaln(flat + a).sum(axis=1) - k * gammaln(a)
-        b = k * a * bases
-        out[grid.size + j] = (gammaln(k * a) - gammaln(total + k * a)
-                              + (gammaln(flat + b) - gammaln(b)).sum(axis=1))
+        norm = gammaln(k * a) - gammaln(total + k * a)
+        out[j] = norm + gammaln(flat + a).sum(axis=1) - k * gammaln(a)
+        for c, m in enumerate(centres):
+            b = k * a * m
+            out[n_grid * (1 + c) + j] = norm + (gammaln(flat + b) - gammaln(b)).sum(axis=1)
     return out
 
 
-def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, pseudo: float = 1.0,
-                      bases: np.ndarray | None = None) -> np.ndarray:
-    r"""``[2J, R]``: each CPT row's posterior weights over the candidate priors (columns sum to one).
+def _first_membership(freq: np.ndarray, total: np.ndarray, n_centres: int) -> np.ndarray:
+    """``[K, n]``: a hard split of seen rows by k-means on their frequencies (L1), started at the most seen row, then the farthest."""
+    centre = [freq[np.argmax(total)]]
+    for _ in range(1, n_centres):
+        gap = np.min([np.abs(freq - c).sum(axis=1) for c in centre], axis=0)
+        centre.append(freq[np.argmax(gap)])
+    centre = np.array(centre)
+    label = np.zeros(freq.shape[0], dtype=np.intp)
+    for _ in range(20):
+        label = np.argmin(np.abs(freq[:, None, :] - centre[None]).sum(axis=-1), axis=1)
+        centre = np.array([freq[label == c].mean(axis=0) if (label == c).any() else centre[c] for c in range(n_centres)])
+    out = np.zeros((n_centres, freq.shape[0]))
+    out[label, np.arange(freq.shape[0])] = 1.0
+    return out
+
+
+def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIOR_CENTRES, pseudo: float = 1.0,
+                   shrink: float = 1.0, max_steps: int = 200) -> RowPriors:
+    r"""A variable's row prior by empirical Bayes, and each row's posterior weights over its candidates.
 
     ``counts`` is ``[R, k]`` or CPT-shaped (states on the last axis; rows
-    in C order). A hierarchical model: every row of the variable draws its
-    prior from ``2J`` candidates with shared weights :math:`w`, then its
-    probabilities from that prior. The candidates are, for every ``a`` of
-    ``grid`` (by default :data:`AUTO_ALPHAS`, from nearly deterministic
-    rows at 0.01 to nearly uniform ones at 3), the symmetric Dirichlet(a,
-    ..., a) (first ``J``) and the Dirichlet of the same total strength
-    centred on the shape the variable's other rows share,
-    Dirichlet(k a m_r) with m_r from :func:`row_base_measures` (``bases``,
-    computed from ``counts`` where not given; last ``J``). The second kind
-    holds where every row of a variable leans the same way (a cost that is
-    mostly low in every row): a symmetric prior would pull every row's
-    rare states up alike, and the errors add up in an answer that sums
-    over many rows. The weights are fitted by empirical Bayes, maximising
-    the rows' Dirichlet-multinomial marginal likelihood (EM over the rows
-    seen), with ``pseudo`` extra responsibility per candidate (a
-    Dirichlet(1 + ``pseudo``) prior on :math:`w`) so that a variable of
-    two or three seen rows does not pin its weights on whatever those rows
-    favour. Row :math:`r` then weighs candidate :math:`j` by
-    :math:`w_j\, p(n_r \mid j)`: a row seen ten times in one state keeps
-    some weight on priors under which its probability is well short of 1;
-    a row of a variable whose rows are all nearly deterministic, less. A
-    row never seen gets :math:`w`.
+    in C order). A hierarchical model (a Dirichlet-multinomial mixture,
+    Holmes, Harris & Quince 2012, PLoS ONE 7: e30126): every row of the
+    variable draws its prior from the candidates of :class:`RowPriors`
+    with shared weights :math:`w`, then its probabilities from that
+    prior. The symmetric candidates span nearly deterministic rows (0.01)
+    to nearly uniform ones (3); the centred ones hold where rows lean the
+    same way, such as a cost that is mostly low in every row (a symmetric
+    prior pulls every rare state up alike, and an answer that sums over
+    many rows adds those errors up). Two centres let the rows form two
+    groups (one parent switching the child between two shapes): a single
+    centre would be their average, a shape no row has, whose rare middle
+    states would make every row overconfident there.
+
+    Fitting alternates (at most ``max_steps`` times, until the log
+    marginal likelihood moves by less than 1e-6 of itself): each seen
+    row's responsibilities over the candidates; :math:`w` from them, with
+    ``pseudo`` extra responsibility per candidate (a Dirichlet(1 +
+    ``pseudo``) prior on :math:`w`, so that a variable of two or three
+    seen rows does not pin its weights on whatever those rows favour);
+    each centre as the responsibility-weighed mean of the rows'
+    frequencies. A row's own frequencies are left out of its centres and
+    ``shrink`` uniform pseudo-rows join them, so a prior centred there
+    never counts the row twice and a variable of a few rows borrows little.
+    The centres start from a k-means split of the rows. Row :math:`r` then
+    weighs candidate :math:`j` by :math:`w_j\, p(n_r \mid j)`: a row seen
+    ten times in one state keeps some weight on priors under which its
+    probability is well short of 1. A row never seen gets :math:`w`.
+    ``centres=0`` leaves only the symmetric candidates.
     """
+    if not shrink > 0:
+        raise ValueError(f"shrink must be positive, got {shrink!r}")
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
     grid = np.asarray(grid, dtype=np.float64)
-    bases = row_base_measures(flat) if bases is None else bases
-    loglik = _row_log_marginals(flat, grid, bases)
-    n_cand = loglik.shape[0]
-    seen = flat.sum(axis=1) > 0
-    w = np.full(n_cand, 1.0 / n_cand)
-    if seen.any():
-        lik = np.exp(loglik[:, seen] - loglik[:, seen].max(axis=0, keepdims=True))
-        for _ in range(5000):
-            resp = w[:, None] * lik
-            resp /= resp.sum(axis=0, keepdims=True)
-            new = (resp.sum(axis=1) + pseudo) / (resp.shape[1] + pseudo * n_cand)
-            done = np.abs(new - w).max() < 1e-10
-            w = new
-            if done:
-                break
+    k, n_grid = flat.shape[1], grid.size
+    total = flat.sum(axis=1)
+    seen = total > 0
+    freq = counts_only_rows(flat)
+    n_centres = min(int(centres), int(seen.sum()))
+    membership = np.zeros((n_centres, flat.shape[0]))
+    if n_centres:
+        membership[:, seen] = _first_membership(freq[seen], total[seen], n_centres)
+    w = np.full(n_grid * (1 + n_centres), 1.0 / (n_grid * (1 + n_centres)))
+    best = -np.inf
+    for _ in range(max_steps if seen.any() else 0):
+        totals, sizes = membership @ freq, membership.sum(axis=1)
+        loglik = _candidate_log_marginals(flat, grid, _loo_centres(flat, totals, sizes, membership, shrink))
+        logjoint = np.log(w)[:, None] + loglik[:, seen]
+        top = logjoint.max(axis=0, keepdims=True)
+        lognorm = np.log(np.exp(logjoint - top).sum(axis=0)) + top[0]
+        resp = np.exp(logjoint - lognorm)
+        objective = float(lognorm.sum() + pseudo * np.log(w).sum())
+        w = (resp.sum(axis=1) + pseudo) / (resp.shape[1] + pseudo * w.size)
+        if n_centres:
+            membership[:, seen] = resp[n_grid:].reshape(n_centres, n_grid, -1).sum(axis=1)
+        if abs(objective - best) <= 1e-6 * max(1.0, abs(objective)):
+            break
+        best = objective
+    totals, sizes = membership @ freq, membership.sum(axis=1)
+    loglik = _candidate_log_marginals(flat, grid, _loo_centres(flat, totals, sizes, membership, shrink))
     logpost = np.log(w)[:, None] + loglik
     post = np.exp(logpost - logpost.max(axis=0, keepdims=True))
-    return post / post.sum(axis=0, keepdims=True)
+    return RowPriors(grid, totals, sizes, membership, float(shrink), post / post.sum(axis=0, keepdims=True))
+
+
+def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, **options) -> np.ndarray:
+    """``[J (1 + K), R]``: each CPT row's posterior weights over the candidate priors of :func:`fit_row_priors`."""
+    return fit_row_priors(counts, grid, **options).weights
 
 
 def kept_mixed_dirichlet_rows(cache: dict, key, rng: np.random.Generator, counts: np.ndarray, draws: int) -> np.ndarray:
-    """:func:`mixed_dirichlet_rows`, the base measures and row weights of ``key``'s ``counts`` computed once and kept in ``cache``.
+    """:func:`mixed_dirichlet_rows`, the row prior of ``key``'s ``counts`` fitted once and kept in ``cache``.
 
     The caller empties ``cache`` when it is fitted again.
     """
     if key not in cache:
-        bases = row_base_measures(counts)
-        cache[key] = (bases, row_prior_weights(counts, bases=bases))
-    bases, weights = cache[key]
-    return mixed_dirichlet_rows(rng, counts, draws, weights, bases=bases)
+        cache[key] = fit_row_priors(counts)
+    return mixed_dirichlet_rows(rng, counts, draws, cache[key])
 
 
 def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int,
-                         weights: np.ndarray | None = None, grid=AUTO_ALPHAS,
-                         bases: np.ndarray | None = None) -> np.ndarray:
-    """``draws`` CPTs ``[draws, *counts.shape]``: every row drawn from its posterior under :func:`row_prior_weights`.
+                         priors: RowPriors | None = None) -> np.ndarray:
+    """``draws`` CPTs ``[draws, *counts.shape]``: every row drawn from its posterior under :func:`fit_row_priors`.
 
     Per draw and row a candidate prior is picked by the row's weights
-    (``weights``, ``[2J, R]``, computed from ``counts`` where not given),
-    then the row from Dirichlet(counts + that prior's parameters).
-    ``counts`` is CPT-shaped (states on the last axis); ``bases`` are the
-    rows' base measures (:func:`row_base_measures`, computed where not
-    given).
+    (``priors``, fitted to ``counts`` where not given), then the row from
+    Dirichlet(counts + that prior's parameters). ``counts`` is CPT-shaped
+    (states on the last axis).
     """
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
-    grid = np.asarray(grid, dtype=np.float64)
-    bases = row_base_measures(flat) if bases is None else bases
-    weights = row_prior_weights(flat, grid, bases=bases) if weights is None else weights
-    cum = np.cumsum(weights, axis=0)  # [2J, R]
+    priors = fit_row_priors(flat) if priors is None else priors
+    grid, n_grid, k = priors.grid, priors.grid.size, flat.shape[1]
+    cum = np.cumsum(priors.weights, axis=0)
     u = rng.random((draws, flat.shape[0]))
     pick = np.zeros(u.shape, dtype=np.intp)
-    for j in range(cum.shape[0] - 1):  # one [draws, R] comparison per candidate, not a [draws, 2J, R] array
+    for j in range(cum.shape[0] - 1):  # one [draws, R] comparison per candidate, not a [draws, C, R] array
         pick += u > cum[j]
-    centred = pick >= grid.size
-    a = grid[pick % grid.size][..., None]  # [draws, R, 1]
-    params = np.where(centred[..., None], (flat.shape[1] * a) * bases, a) + flat  # [draws, R, k]
+    a = grid[pick % n_grid][..., None]  # [draws, R, 1]
+    if priors.sizes.size:
+        # every row's shape under its pick: uniform for a symmetric candidate, else the picked centre
+        shapes = np.concatenate([np.full((1,) + flat.shape, 1.0 / k), priors.centres(flat)])  # [1 + K, R, k]
+        params = (k * a) * shapes[pick // n_grid, np.arange(flat.shape[0])] + flat
+    else:
+        params = a + flat
     return dirichlet_draws(rng, params).reshape((draws,) + counts.shape)
 
 

@@ -479,7 +479,7 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
         self.families_ = families
         self.neural_share_ = shares
         self.posterior_ = posterior
-        self._row_weights = {}  # per mechanism, the counts-only rows' weights over the smoothing grid (intervals)
+        self._row_weights = {}  # per mechanism, the counts-only rows' fitted prior (fit_row_priors; intervals)
         self.models_ = models
         self.train_results_: list[TrainResult] = results
         self.skeleton_ = skeleton
