@@ -38,9 +38,9 @@ class Interval:
     contain it where it is not NaN: the posterior intervals pass the
     probabilities the counts alone make exactly 0 or 1 there. ``estimate``,
     if given, is the answer the interval goes with, and the bounds always
-    contain it: a bootstrap's percentiles, or a posterior that weighs the
-    smoothing per CPT row while the point answer uses one value per
-    variable, can leave the answer outside the draws' quantiles (usually
+    contain it: a bootstrap's percentiles, or a posterior whose row priors
+    are fitted per CPT row while the point answer smooths with one value
+    per variable, can leave the answer outside the draws' quantiles (usually
     by little; by 0.085 for a row seen 21 times in one state whose point
     is smoothed with 1.0).
     """

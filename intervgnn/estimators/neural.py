@@ -587,8 +587,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         picks the counts-only candidate, the rows come from the posterior
         the plug-in fitted with ``alpha="auto"`` draws from
         (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`: each
-        row's smoothing is uncertain, not the one value the point estimate
-        uses, so the answer is not quite the draws' mean; the interval
+        row's prior is uncertain, not the one smoothing value the point
+        estimate uses, so the answer is not quite the draws' mean; the interval
         always holds it). Every
         drawn set is answered exactly in one contraction. In Monte Carlo
         mode, with hidden common causes or without the cut, the bootstrap of

@@ -184,7 +184,7 @@ def dirichlet_draws(rng: np.random.Generator, params: np.ndarray) -> np.ndarray:
 
 
 #: learned centres of the row priors (beside the symmetric ones), see :func:`fit_row_priors`
-ROW_PRIOR_CENTRES = 2
+ROW_PRIOR_CENTRES = 4
 
 
 @dataclass(frozen=True)
@@ -212,6 +212,10 @@ class RowPriors:
         """``[K, R, k]``: every row's centres, its own frequencies left out and ``shrink`` uniform pseudo-rows added."""
         return _loo_centres(flat, self.totals, self.sizes, self.membership, self.shrink)
 
+    def shapes(self, flat: np.ndarray) -> np.ndarray:
+        """``[1 + K, R, k]``: every row's shape under each kind of candidate, uniform (symmetric) first, then its centres."""
+        return np.concatenate([np.full((1,) + flat.shape, 1.0 / flat.shape[1]), self.centres(flat)])
+
 
 def _loo_centres(flat, totals, sizes, membership, shrink) -> np.ndarray:
     k = flat.shape[1]
@@ -220,26 +224,36 @@ def _loo_centres(flat, totals, sizes, membership, shrink) -> np.ndarray:
     return m / m.sum(axis=-1, keepdims=True)
 
 
-def _candidate_log_marginals(flat: np.ndarray, grid: np.ndarray, centres: np.ndarray) -> np.ndarray:
-    """``[J (1 + K), R]``: log probability of each row's sequence of states under every candidate of :class:`RowPriors`.
+def _symmetric_log_marginals(flat: np.ndarray, grid: np.ndarray) -> np.ndarray:
+    """``[J, R]``: log probability of each row's sequence of states under Dirichlet(a, ..., a), every ``a`` of ``grid``.
 
     The Dirichlet-multinomial: :math:`\\log\\Gamma(B) - \\log\\Gamma(N + B) +
     \\sum_s [\\log\\Gamma(n_s + b_s) - \\log\\Gamma(b_s)]` with :math:`B = \\sum_s
     b_s` (the multinomial coefficient, the same under every prior, left
-    out). A few ``[R, k]`` temporaries at a time.
+    out). One ``[R, k]`` temporary at a time.
     """
     from scipy.special import gammaln
 
     k = flat.shape[1]
     total = flat.sum(axis=1)
-    n_grid = grid.size
-    out = np.empty((n_grid * (1 + centres.shape[0]), flat.shape[0]))
+    out = np.empty((grid.size, flat.shape[0]))
     for j, a in enumerate(grid):
-        norm = gammaln(k * a) - gammaln(total + k * a)
-        out[j] = norm + gammaln(flat + a).sum(axis=1) - k * gammaln(a)
-        for c, m in enumerate(centres):
+        out[j] = gammaln(k * a) - gammaln(total + k * a) + gammaln(flat + a).sum(axis=1) - k * gammaln(a)
+    return out
+
+
+def _centred_log_marginals(flat: np.ndarray, grid: np.ndarray, centres: np.ndarray) -> np.ndarray:
+    """``[K J, R]``: as :func:`_symmetric_log_marginals` under Dirichlet(k a m_c), centre by centre (``centres`` ``[K, R, k]``)."""
+    from scipy.special import gammaln
+
+    k = flat.shape[1]
+    total = flat.sum(axis=1)
+    out = np.empty((centres.shape[0] * grid.size, flat.shape[0]))
+    for c, m in enumerate(centres):
+        for j, a in enumerate(grid):
             b = k * a * m
-            out[n_grid * (1 + c) + j] = norm + (gammaln(flat + b) - gammaln(b)).sum(axis=1)
+            out[c * grid.size + j] = (gammaln(k * a) - gammaln(total + k * a)
+                                      + (gammaln(flat + b) - gammaln(b)).sum(axis=1))
     return out
 
 
@@ -272,19 +286,24 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     to nearly uniform ones (3); the centred ones hold where rows lean the
     same way, such as a cost that is mostly low in every row (a symmetric
     prior pulls every rare state up alike, and an answer that sums over
-    many rows adds those errors up). Two centres let the rows form two
-    groups (one parent switching the child between two shapes): a single
-    centre would be their average, a shape no row has, whose rare middle
-    states would make every row overconfident there.
+    many rows adds those errors up). Several centres let the rows form
+    groups (a parent switching the child between shapes): a centre shared
+    by two groups is their average, a shape neither has, whose rare states
+    make the rows overconfident there (with two centres and three groups of
+    opposite shapes, coverage fell below that of the symmetric candidates
+    alone; four hold it).
 
-    Fitting alternates (at most ``max_steps`` times, until the log
-    marginal likelihood moves by less than 1e-6 of itself): each seen
-    row's responsibilities over the candidates; :math:`w` from them, with
-    ``pseudo`` extra responsibility per candidate (a Dirichlet(1 +
-    ``pseudo``) prior on :math:`w`, so that a variable of two or three
-    seen rows does not pin its weights on whatever those rows favour);
-    each centre as the responsibility-weighed mean of the rows'
-    frequencies. A row's own frequencies are left out of its centres and
+    Fitting alternates (at most ``max_steps`` times, until the objective,
+    the log marginal likelihood of the seen rows plus the log prior of
+    :math:`w`, moves by less than 1e-6 of itself): each seen row's
+    responsibilities over the candidates; :math:`w` from them, with
+    ``pseudo`` extra responsibility shared alike by the symmetric
+    candidates and by the centred ones (so that a variable of two or three
+    seen rows does not pin its weights on whatever those rows favour, and
+    more centres do not tilt the prior towards them); each centre as the
+    responsibility-weighed mean of the rows' frequencies (a moment update,
+    not the likelihood's maximum, so the objective need not rise at every
+    step). A row's own frequencies are left out of its centres and
     ``shrink`` uniform pseudo-rows join them, so a prior centred there
     never counts the row twice and a variable of a few rows borrows little.
     The centres start from a k-means split of the rows. Row :math:`r` then
@@ -295,10 +314,12 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     """
     if not shrink > 0:
         raise ValueError(f"shrink must be positive, got {shrink!r}")
+    if not pseudo > 0:
+        raise ValueError(f"pseudo must be positive (a weight of 0 never comes back), got {pseudo!r}")
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
     grid = np.asarray(grid, dtype=np.float64)
-    k, n_grid = flat.shape[1], grid.size
+    n_grid = grid.size
     total = flat.sum(axis=1)
     seen = total > 0
     freq = counts_only_rows(flat)
@@ -306,27 +327,31 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     membership = np.zeros((n_centres, flat.shape[0]))
     if n_centres:
         membership[:, seen] = _first_membership(freq[seen], total[seen], n_centres)
+    symmetric = _symmetric_log_marginals(flat, grid)  # [J, R], the same at every step
+
+    def log_marginals():
+        centred = _loo_centres(flat, membership @ freq, membership.sum(axis=1), membership, shrink)
+        return np.concatenate([symmetric, _centred_log_marginals(flat, grid, centred)])
+
     w = np.full(n_grid * (1 + n_centres), 1.0 / (n_grid * (1 + n_centres)))
+    extra = pseudo * np.concatenate([np.ones(n_grid), np.full(n_grid * n_centres, 1.0 / max(n_centres, 1))])
     best = -np.inf
     for _ in range(max_steps if seen.any() else 0):
-        totals, sizes = membership @ freq, membership.sum(axis=1)
-        loglik = _candidate_log_marginals(flat, grid, _loo_centres(flat, totals, sizes, membership, shrink))
-        logjoint = np.log(w)[:, None] + loglik[:, seen]
+        logjoint = np.log(w)[:, None] + log_marginals()[:, seen]
         top = logjoint.max(axis=0, keepdims=True)
         lognorm = np.log(np.exp(logjoint - top).sum(axis=0)) + top[0]
         resp = np.exp(logjoint - lognorm)
-        objective = float(lognorm.sum() + pseudo * np.log(w).sum())
-        w = (resp.sum(axis=1) + pseudo) / (resp.shape[1] + pseudo * w.size)
+        objective = float(lognorm.sum() + (extra * np.log(w)).sum())
+        w = (resp.sum(axis=1) + extra) / (resp.shape[1] + extra.sum())
         if n_centres:
             membership[:, seen] = resp[n_grid:].reshape(n_centres, n_grid, -1).sum(axis=1)
         if abs(objective - best) <= 1e-6 * max(1.0, abs(objective)):
             break
         best = objective
-    totals, sizes = membership @ freq, membership.sum(axis=1)
-    loglik = _candidate_log_marginals(flat, grid, _loo_centres(flat, totals, sizes, membership, shrink))
-    logpost = np.log(w)[:, None] + loglik
+    logpost = np.log(w)[:, None] + log_marginals()
     post = np.exp(logpost - logpost.max(axis=0, keepdims=True))
-    return RowPriors(grid, totals, sizes, membership, float(shrink), post / post.sum(axis=0, keepdims=True))
+    return RowPriors(grid, membership @ freq, membership.sum(axis=1), membership, float(shrink),
+                     post / post.sum(axis=0, keepdims=True))
 
 
 def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, **options) -> np.ndarray:
@@ -335,23 +360,25 @@ def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, **options) -> np.nda
 
 
 def kept_mixed_dirichlet_rows(cache: dict, key, rng: np.random.Generator, counts: np.ndarray, draws: int) -> np.ndarray:
-    """:func:`mixed_dirichlet_rows`, the row prior of ``key``'s ``counts`` fitted once and kept in ``cache``.
+    """:func:`mixed_dirichlet_rows`, the row prior of ``key``'s ``counts`` (and its rows' shapes) fitted once and kept in ``cache``.
 
     The caller empties ``cache`` when it is fitted again.
     """
     if key not in cache:
-        cache[key] = fit_row_priors(counts)
-    return mixed_dirichlet_rows(rng, counts, draws, cache[key])
+        priors = fit_row_priors(counts)
+        cache[key] = (priors, priors.shapes(np.asarray(counts, dtype=np.float64).reshape(-1, np.shape(counts)[-1])))
+    return mixed_dirichlet_rows(rng, counts, draws, *cache[key])
 
 
 def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int,
-                         priors: RowPriors | None = None) -> np.ndarray:
+                         priors: RowPriors | None = None, shapes: np.ndarray | None = None) -> np.ndarray:
     """``draws`` CPTs ``[draws, *counts.shape]``: every row drawn from its posterior under :func:`fit_row_priors`.
 
     Per draw and row a candidate prior is picked by the row's weights
     (``priors``, fitted to ``counts`` where not given), then the row from
     Dirichlet(counts + that prior's parameters). ``counts`` is CPT-shaped
-    (states on the last axis).
+    (states on the last axis); ``shapes`` are ``priors.shapes`` of its
+    rows, computed where not given.
     """
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
@@ -364,8 +391,7 @@ def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: in
         pick += u > cum[j]
     a = grid[pick % n_grid][..., None]  # [draws, R, 1]
     if priors.sizes.size:
-        # every row's shape under its pick: uniform for a symmetric candidate, else the picked centre
-        shapes = np.concatenate([np.full((1,) + flat.shape, 1.0 / k), priors.centres(flat)])  # [1 + K, R, k]
+        shapes = priors.shapes(flat) if shapes is None else shapes
         params = (k * a) * shapes[pick // n_grid, np.arange(flat.shape[0])] + flat
     else:
         params = a + flat
@@ -488,12 +514,13 @@ class PluginEstimator(ChecksIdentification, Estimator):
         With a fixed ``alpha`` every CPT row's posterior is the Dirichlet of
         its counts plus ``alpha`` (the smoothing is the prior). With
         ``alpha="auto"`` the data chose the smoothing, and how smooth one
-        row is stays uncertain: each row's posterior mixes the Dirichlet
-        posteriors of several priors, weighted by how well each explains
-        that row and the variable's other rows (:func:`row_prior_weights`),
-        so a rare parent configuration seen a few times in one state keeps
-        an honest spread even where the variable's common rows are nearly
-        deterministic. (The point answer keeps the one smoothing value per
+        row is, and which shape it leans towards, stays uncertain: each
+        row's posterior mixes the Dirichlet posteriors of several priors
+        (symmetric ones, and ones centred on shapes the variable's rows
+        share), weighted by how well each explains that row and the
+        variable's other rows (:func:`fit_row_priors`), so a rare parent
+        configuration seen a few times in one state keeps an honest spread
+        even where the variable's common rows are nearly deterministic. (The point answer keeps the one smoothing value per
         variable that leave-one-out picked, so it is not quite the mean of
         these draws; the interval is widened to hold it where the draws do
         not, see :class:`~intervgnn.distribution.Interval`.) Each drawn set

@@ -490,8 +490,8 @@ class RelationalNeuralEstimator(RelationalPluginEstimator):
 
         A candidate (strength s, alpha) is picked by its weight, then every
         row from Dirichlet(counts + s * decoder + alpha); the counts-only
-        candidate draws its rows from the plug-in's posterior with the
-        smoothing weighed per row
+        candidate draws its rows from the plug-in's posterior under its
+        fitted row priors
         (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`), as the
         single-table neural estimator's posterior intervals do (the fitted CPT
         uses one smoothing value there, so it is not quite this posterior's
