@@ -191,6 +191,26 @@ def test_odd_rows_keep_their_symmetric_spread():
     assert np.mean(odd) >= 0.9
 
 
+def test_row_priors_of_a_large_table_are_fitted_on_a_sample():
+    # Beyond max_rows seen rows the priors are fitted on a seeded sample: the rows left out make no centre (no
+    # membership), every row still gets weights, and the intervals cover as the full fit's do (frequentist
+    # coverage of the rows' true probabilities; common practice, no source).
+    rng = np.random.default_rng(4)
+    truth = rng.dirichlet([8, 1, 0.5, 0.2], size=3000)
+    counts = np.array([rng.multinomial(n, p) for n, p in zip(rng.integers(5, 30, 3000), truth)], dtype=float)
+    sample, full = fit_row_priors(counts, max_rows=500), fit_row_priors(counts, max_rows=10**9)
+    assert ((sample.membership.sum(axis=0) > 0).sum() == 500) and (full.membership.sum(axis=0) > 0).all()
+    assert sample.weights.shape == full.weights.shape
+    np.testing.assert_allclose(sample.weights.sum(axis=0), 1.0)
+    cover = []
+    for priors in (sample, full):
+        draws = mixed_dirichlet_rows(np.random.default_rng(0), counts, 1000, priors)
+        lo, hi = np.quantile(draws, [0.025, 0.975], axis=0)
+        cover.append(((lo <= truth) & (truth <= hi)).mean())
+    assert abs(cover[0] - cover[1]) < 0.01 and 0.93 <= cover[0] <= 0.98
+    assert fit_row_priors(counts, max_rows=500).weights == pytest.approx(sample.weights)  # the sample is seeded
+
+
 def test_a_rare_row_seen_in_one_state_keeps_an_honest_spread():
     # A variable whose common row is nearly deterministic (985 / 5) and whose rare row was seen 10 times, all
     # in one state. One smoothing value for the variable (leave-one-out picks 0.01) makes the rare row's

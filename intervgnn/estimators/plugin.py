@@ -273,8 +273,12 @@ def _first_membership(freq: np.ndarray, total: np.ndarray, n_centres: int) -> np
     return out
 
 
+#: the most seen rows the row priors are fitted on (a seeded sample of them beyond that)
+ROW_PRIOR_FIT_ROWS = 20_000
+
+
 def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIOR_CENTRES, pseudo: float = 1.0,
-                   shrink: float = 1.0, max_steps: int = 200) -> RowPriors:
+                   shrink: float = 1.0, max_steps: int = 200, max_rows: int = ROW_PRIOR_FIT_ROWS) -> RowPriors:
     r"""A variable's row prior by empirical Bayes, and each row's posterior weights over its candidates.
 
     ``counts`` is ``[R, k]`` or CPT-shaped (states on the last axis; rows
@@ -310,7 +314,11 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     weighs candidate :math:`j` by :math:`w_j\, p(n_r \mid j)`: a row seen
     ten times in one state keeps some weight on priors under which its
     probability is well short of 1. A row never seen gets :math:`w`.
-    ``centres=0`` leaves only the symmetric candidates.
+    ``centres=0`` leaves only the symmetric candidates. A variable of more
+    than ``max_rows`` seen rows is fitted on a seeded sample of that many
+    (the weights and centres of a few hundred rows are already settled; a
+    table of millions would take minutes); every row then gets its weights
+    from that fit, and only the sampled rows make the centres.
     """
     if not shrink > 0:
         raise ValueError(f"shrink must be positive, got {shrink!r}")
@@ -320,38 +328,40 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     flat = counts.reshape(-1, counts.shape[-1])
     grid = np.asarray(grid, dtype=np.float64)
     n_grid = grid.size
-    total = flat.sum(axis=1)
-    seen = total > 0
-    freq = counts_only_rows(flat)
-    n_centres = min(int(centres), int(seen.sum()))
-    membership = np.zeros((n_centres, flat.shape[0]))
-    if n_centres:
-        membership[:, seen] = _first_membership(freq[seen], total[seen], n_centres)
-    symmetric = _symmetric_log_marginals(flat, grid)  # [J, R], the same at every step
-
-    def log_marginals():
-        centred = _loo_centres(flat, membership @ freq, membership.sum(axis=1), membership, shrink)
-        return np.concatenate([symmetric, _centred_log_marginals(flat, grid, centred)])
+    fit = np.flatnonzero(flat.sum(axis=1) > 0)  # the rows fitted on: the seen ones, or a sample of them
+    if fit.size > max_rows:
+        fit = np.sort(np.random.default_rng(0).choice(fit, size=int(max_rows), replace=False))
+    sub = flat[fit]
+    freq = counts_only_rows(sub)
+    n_centres = min(int(centres), fit.size)
+    membership = _first_membership(freq, sub.sum(axis=1), n_centres) if n_centres else np.zeros((0, fit.size))
+    symmetric = _symmetric_log_marginals(sub, grid)  # [J, n], the same at every step
 
     w = np.full(n_grid * (1 + n_centres), 1.0 / (n_grid * (1 + n_centres)))
     extra = pseudo * np.concatenate([np.ones(n_grid), np.full(n_grid * n_centres, 1.0 / max(n_centres, 1))])
     best = -np.inf
-    for _ in range(max_steps if seen.any() else 0):
-        logjoint = np.log(w)[:, None] + log_marginals()[:, seen]
+    for _ in range(max_steps if fit.size else 0):
+        centred = _loo_centres(sub, membership @ freq, membership.sum(axis=1), membership, shrink)
+        logjoint = np.log(w)[:, None] + np.concatenate([symmetric, _centred_log_marginals(sub, grid, centred)])
         top = logjoint.max(axis=0, keepdims=True)
         lognorm = np.log(np.exp(logjoint - top).sum(axis=0)) + top[0]
         resp = np.exp(logjoint - lognorm)
         objective = float(lognorm.sum() + (extra * np.log(w)).sum())
         w = (resp.sum(axis=1) + extra) / (resp.shape[1] + extra.sum())
         if n_centres:
-            membership[:, seen] = resp[n_grid:].reshape(n_centres, n_grid, -1).sum(axis=1)
+            membership = resp[n_grid:].reshape(n_centres, n_grid, -1).sum(axis=1)
         if abs(objective - best) <= 1e-6 * max(1.0, abs(objective)):
             break
         best = objective
-    logpost = np.log(w)[:, None] + log_marginals()
+    # every row's weights from the fit; only the fitted rows make the centres (and leave themselves out of them)
+    full = np.zeros((n_centres, flat.shape[0]))
+    full[:, fit] = membership
+    totals, sizes = membership @ freq, membership.sum(axis=1)
+    loglik = np.concatenate([_symmetric_log_marginals(flat, grid),
+                             _centred_log_marginals(flat, grid, _loo_centres(flat, totals, sizes, full, shrink))])
+    logpost = np.log(w)[:, None] + loglik
     post = np.exp(logpost - logpost.max(axis=0, keepdims=True))
-    return RowPriors(grid, membership @ freq, membership.sum(axis=1), membership, float(shrink),
-                     post / post.sum(axis=0, keepdims=True))
+    return RowPriors(grid, totals, sizes, full, float(shrink), post / post.sum(axis=0, keepdims=True))
 
 
 def row_prior_weights(counts: np.ndarray, grid=AUTO_ALPHAS, **options) -> np.ndarray:
