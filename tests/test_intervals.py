@@ -103,6 +103,16 @@ def test_centres_leave_the_row_out():
     assert fit_row_priors(np.zeros((3, 2))).weights.shape == (len(AUTO_ALPHAS), 3)  # nothing seen: no centre
     with pytest.raises(ValueError, match="shrink"):
         fit_row_priors(counts, shrink=0.0)
+    with pytest.raises(ValueError, match="pseudo"):
+        fit_row_priors(counts, pseudo=0.0)
+    for bad in (0, -1, 2.5, True):
+        with pytest.raises(ValueError, match="max_rows"):
+            fit_row_priors(counts, max_rows=bad)
+    priors = fit_row_priors(counts)
+    with pytest.raises(ValueError, match="pass both"):
+        mixed_dirichlet_rows(np.random.default_rng(0), counts, 2, shapes=priors.shapes(counts))
+    with pytest.raises(ValueError, match="rows and states"):
+        mixed_dirichlet_rows(np.random.default_rng(0), counts, 2, priors, np.ones((3, 5, 2)))
 
 
 def test_row_weights_recover_how_deterministic_a_variable_is():

@@ -470,7 +470,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         self.mixtures_: dict[int, Mixture] = {}
         self._count_rows: dict[int, tuple[np.ndarray, np.ndarray]] = {}
         self._posterior: dict[str, tuple] = {}  # per variable: counts, base, mixture, CPT shape (exact mode)
-        self._row_weights: dict[str, RowPriors] = {}  # per variable, the counts-only rows' fitted prior (intervals)
+        self._row_weights: dict[str, tuple[RowPriors, np.ndarray]] = {}  # per variable: counts-only rows' prior, shapes
         cpts: dict[str, np.ndarray] = {}
         for v in free:
             start, cfgs = rows_of[v]

@@ -195,10 +195,12 @@ class RowPriors:
     first the symmetric Dirichlet(a, ..., a), then for every centre ``c``
     the Dirichlet(k a m_c) of the same total strength centred on the
     centre's mean shape ``m_c``. A centre is kept as the responsibility
-    weighed sums of the seen rows' frequencies (``totals``, ``[K, k]``)
+    weighed sums of the fitted rows' frequencies (``totals``, ``[K, k]``;
+    the seen rows, or the sample of them :func:`fit_row_priors` fitted on)
     and the weights' sums (``sizes``, ``[K]``), with each row's own share
-    (``membership``, ``[K, R]``), so that every row's centre leaves the
-    row itself out (:meth:`centres`).
+    (``membership``, ``[K, R]``; zero for a row never seen or not in the
+    sample), so that every row's centre leaves the row itself out
+    (:meth:`centres`).
     """
 
     grid: np.ndarray
@@ -318,12 +320,15 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     than ``max_rows`` seen rows is fitted on a seeded sample of that many
     (the weights and centres of a few hundred rows are already settled; a
     table of millions would take minutes); every row then gets its weights
-    from that fit, and only the sampled rows make the centres.
+    from that fit, and only the sampled rows make the centres. There are at
+    most as many centres as fitted rows.
     """
     if not shrink > 0:
         raise ValueError(f"shrink must be positive, got {shrink!r}")
     if not pseudo > 0:
         raise ValueError(f"pseudo must be positive (a weight of 0 never comes back), got {pseudo!r}")
+    if isinstance(max_rows, bool) or not isinstance(max_rows, (int, np.integer)) or max_rows < 1:
+        raise ValueError(f"max_rows must be a whole number of at least 1, got {max_rows!r}")
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
     grid = np.asarray(grid, dtype=np.float64)
@@ -392,6 +397,10 @@ def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: in
     """
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
+    if priors is None and shapes is not None:
+        raise ValueError("shapes go with the priors they were computed from; pass both or neither")
+    if shapes is not None and np.shape(shapes)[1:] != flat.shape:
+        raise ValueError(f"shapes have {np.shape(shapes)[1:]} rows and states, the counts {flat.shape}")
     priors = fit_row_priors(flat) if priors is None else priors
     grid, n_grid, k = priors.grid, priors.grid.size, flat.shape[1]
     cum = np.cumsum(priors.weights, axis=0)
