@@ -414,7 +414,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """Drop everything a previous fit learned (a new fit starts clean; a failed one leaves nothing)."""
         for name in ("graph_", "states_", "cells_", "n_rows_", "models_", "train_results_", "latent_scores_",
                      "mixtures_", "network_", "answer_mode_", "table_rows_", "_count_rows", "_identifications",
-                     "_fitted_rows", "_bootstrap_refits", "_posterior", "_posterior_draws_kept"):
+                     "_fitted_rows", "_bootstrap_refits", "_posterior", "_fold_bases", "_posterior_draws_kept"):
             self.__dict__.pop(name, None)
 
     # ------------------------------------------------------------ answering
@@ -470,6 +470,7 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         self.mixtures_: dict[int, Mixture] = {}
         self._count_rows: dict[int, tuple[np.ndarray, np.ndarray]] = {}
         self._posterior: dict[str, tuple] = {}  # per variable: counts, base, mixture, CPT shape (exact mode)
+        self._fold_bases: dict[str, np.ndarray] = {}  # per variable: each fold decoder's rows [F, R, k] (exact mode)
         self._row_weights: dict[str, tuple[RowPriors, np.ndarray]] = {}  # per variable: counts-only rows' prior, shapes
         cpts: dict[str, np.ndarray] = {}
         for v in free:
@@ -492,6 +493,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
                 pcards = [cells.cards[p] for p in parents[v]]
                 cpts[nodes[v]] = mixture_rows(counts, base, mix).reshape(pcards + [k])
                 self._posterior[nodes[v]] = (counts, base, mix, tuple(pcards) + (k,))
+                if len(fold_bases) > 1:
+                    self._fold_bases[nodes[v]] = np.stack(fold_bases)
             else:
                 self._count_rows[v] = (cfgs, counts)
         if not exact:
@@ -583,7 +586,15 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         averaged over the candidates (s, alpha) with their weights
         (:mod:`~intervgnn.models.shrinkage`); a draw picks a candidate by its
         weight, then the row from that Dirichlet, so the interval carries
-        the pull towards the decoder as well as the counts' noise; where it
+        the pull towards the decoder as well as the counts' noise. The
+        decoder m is the mean of the cross-fitting folds' decoders, each
+        trained without its fold, and it is uncertain too: a draw takes the
+        decoder of one fold, its deviation from the mean scaled by
+        sqrt(F - 1) for F folds (the delete-a-group jackknife's variance,
+        Quenouille 1956, Biometrika 43: 353-360, cited from memory; for the
+        default two folds, one fold's decoder as it is). Without that, a rare row the decoder
+        learnt from the same few rows its prior pseudo-counts stand for was
+        drawn as if the decoder were known. Where it
         picks the counts-only candidate, the rows come from the posterior
         the plug-in fitted with ``alpha="auto"`` draws from
         (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`: each
@@ -604,7 +615,15 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         def draw_cpt(rng, v, n):
             counts, base, mix, shape = self._posterior[v]
             pick = rng.choice(mix.weight.size, size=n, p=mix.weight)
-            out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
+            folds = self.__dict__.get("_fold_bases", {}).get(v)
+            if folds is None:
+                out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
+            else:  # one fold's decoder per draw, its deviation scaled to the jackknife's variance
+                one = base[None] + np.sqrt(len(folds) - 1) * (folds[rng.integers(len(folds), size=n)] - base[None])
+                one = np.maximum(one, 0.0)  # beyond two folds the scaled deviation can leave the simplex
+                one /= one.sum(axis=-1, keepdims=True)
+                out = dirichlet_draws(rng, counts[None] + mix.strength[pick][:, None, None] * one
+                                      + mix.alpha[pick][:, None, None])
             plain = mix.strength[pick] == 0  # the counts-only candidate: the plug-in's posterior
             if plain.any():  # the cache is emptied by fit; a loaded model starts one here
                 cache = self.__dict__.setdefault("_row_weights", {})
