@@ -302,20 +302,35 @@ def test_bootstrap_interval_effect_and_cache():
 
 def test_neural_interval_draws_one_fold_decoder_at_a_time():
     # The decoder the neural prior centres on is the mean of the two cross-fitting folds' decoders; a draw takes
-    # one fold's decoder (the delete-a-group jackknife's spread for two folds, common practice, no source), so
-    # where the folds disagree the interval is wider than with their mean (0.176 against 0.168 seen here).
+    # one fold's decoder for every variable (the delete-a-group jackknife's spread for two folds, common practice,
+    # no source). With every variable's weight forced onto one very strong neural candidate, each drawn CPT is
+    # its fold's decoder, so P(JohnCalls | do(Burglary=True, Earthquake=False)), which reads the Alarm and the
+    # JohnCalls CPTs, lands on one of the two answers computed from a single fold's CPTs, both of them occur,
+    # and never on a mix of the folds (Alarm from one fold, JohnCalls from the other).
+    from intervgnn.models.shrinkage import Mixture
+
     net = ig.load_network("earthquake")
     est = NeuralEstimator(seed=0, steps=10).fit(net.sample(1000, seed=4), net.graph)
-    folds = est._fold_bases["Alarm"]
-    assert folds.shape[0] == 2 and np.abs(folds[0] - folds[1]).max() > 1e-4
     counts, base, mix, shape = est._posterior["Alarm"]
-    np.testing.assert_allclose(base, folds.mean(axis=0))
-    ask = dict(target="Alarm", do={"Burglary": "True"}, draws=4000, seed=1)
-    with_folds = est.query_interval(**ask).interval
-    est._fold_bases = {}
-    est.__dict__.pop("_posterior_draws_kept", None)  # the drawn sets are kept; draw them again
-    without = est.query_interval(**ask).interval
-    assert (with_folds.upper - with_folds.lower)[0] > (without.upper - without.lower)[0] + 0.002
+    np.testing.assert_allclose(base, est._fold_bases["Alarm"].mean(axis=0))
+    strong = Mixture(np.array([1e9]), np.array([0.01]), np.array([1.0]))
+    for v, (c, b, _, sh) in list(est._posterior.items()):
+        est._posterior[v] = (c, b, strong, sh)
+    alarm, john = est._fold_bases["Alarm"], est._fold_bases["JohnCalls"]
+    on = net.states["Alarm"].index("True"), net.states["JohnCalls"].index("True")
+    row = net.states["Burglary"].index("True") * 2 + net.states["Earthquake"].index("False")  # Alarm's parents' row
+
+    def answer(fa, fj):  # P(JohnCalls=True) from fold fa's Alarm row and fold fj's JohnCalls rows
+        return sum(alarm[fa][row, a] * john[fj][a, on[1]] for a in range(2))
+
+    pure = np.array([answer(0, 0), answer(1, 1)])
+    mixed = np.array([answer(0, 1), answer(1, 0)])
+    assert np.abs(pure[:, None] - mixed[None]).min() > 1e-4  # told apart here (a draw strays about 1e-5)
+    d = est.query_interval("JohnCalls", do={"Burglary": "True", "Earthquake": "False"}, draws=400, seed=5)
+    samples = d.interval.samples[:, on[1]]
+    gap = np.abs(samples[:, None] - pure[None])
+    assert gap.min(axis=1).max() < 5e-5
+    assert set(np.argmin(gap, axis=1)) == {0, 1}
 
 
 def test_neural_interval_is_drawn_from_the_shrinkage_posterior():

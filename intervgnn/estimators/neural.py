@@ -589,12 +589,16 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         the pull towards the decoder as well as the counts' noise. The
         decoder m is the mean of the cross-fitting folds' decoders, each
         trained without its fold, and it is uncertain too: a draw takes the
-        decoder of one fold, its deviation from the mean scaled by
-        sqrt(F - 1) for F folds (the delete-a-group jackknife's variance,
-        Quenouille 1956, Biometrika 43: 353-360, cited from memory; for the
-        default two folds, one fold's decoder as it is). Without that, a rare row the decoder
-        learnt from the same few rows its prior pseudo-counts stand for was
-        drawn as if the decoder were known. Where it
+        decoder of one fold for every variable (a fold's model is one
+        replicate of the whole network), its deviation from the mean scaled
+        by sqrt(F - 1) for F folds, so that the spread over folds has the
+        delete-a-group jackknife's variance, (F - 1)/F times the sum of the
+        squared deviations (Tukey 1958, Ann. Math. Statist. 29: 614, cited
+        from memory); for the default two folds, one fold's decoder as it
+        is. The folds' decoders also differ by their training seeds, so the
+        spread holds some optimisation noise besides the data's. Without
+        it, a rare row the decoder learnt from the same few rows its prior
+        pseudo-counts stand for was drawn as if the decoder were known. Where it
         picks the counts-only candidate, the rows come from the posterior
         the plug-in fitted with ``alpha="auto"`` draws from
         (:func:`~intervgnn.estimators.plugin.mixed_dirichlet_rows`: each
@@ -611,6 +615,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
 
         self._check_interval_settings(level, draws, seed)
         draws = self.posterior_draws if draws is None else int(draws)
+        # each draw's fold, one for every variable (its own stream: the CPT draws stay as they were for a seed)
+        fold_of_draw = np.random.default_rng([int(seed), 1]).integers(max(self.folds, 1), size=draws)
 
         def draw_cpt(rng, v, n):
             counts, base, mix, shape = self._posterior[v]
@@ -618,8 +624,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             folds = self.__dict__.get("_fold_bases", {}).get(v)
             if folds is None:
                 out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
-            else:  # one fold's decoder per draw, its deviation scaled to the jackknife's variance
-                one = base[None] + np.sqrt(len(folds) - 1) * (folds[rng.integers(len(folds), size=n)] - base[None])
+            else:  # the draw's fold decoder, its deviation scaled to the jackknife's variance
+                one = base[None] + np.sqrt(len(folds) - 1) * (folds[fold_of_draw[:n] % len(folds)] - base[None])
                 one = np.maximum(one, 0.0)  # beyond two folds the scaled deviation can leave the simplex
                 one /= one.sum(axis=-1, keepdims=True)
                 out = dirichlet_draws(rng, counts[None] + mix.strength[pick][:, None, None] * one
