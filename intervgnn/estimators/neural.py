@@ -622,14 +622,11 @@ class NeuralEstimator(ChecksIdentification, Estimator):
             counts, base, mix, shape = self._posterior[v]
             pick = rng.choice(mix.weight.size, size=n, p=mix.weight)
             folds = self.__dict__.get("_fold_bases", {}).get(v)
-            if folds is None:
-                out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
-            else:  # the draw's fold decoder, its deviation scaled to the jackknife's variance
-                one = base[None] + np.sqrt(len(folds) - 1) * (folds[fold_of_draw[:n] % len(folds)] - base[None])
-                one = np.maximum(one, 0.0)  # beyond two folds the scaled deviation can leave the simplex
-                one /= one.sum(axis=-1, keepdims=True)
-                out = dirichlet_draws(rng, counts[None] + mix.strength[pick][:, None, None] * one
-                                      + mix.alpha[pick][:, None, None])
+            if folds is not None:  # the draw's fold decoder, its deviation scaled to the jackknife's variance
+                base = base[None] + np.sqrt(len(folds) - 1) * (folds[fold_of_draw[:n] % len(folds)] - base[None])
+                base = np.maximum(base, 0.0)  # beyond two folds the scaled deviation can leave the simplex
+                base /= base.sum(axis=-1, keepdims=True)
+            out = dirichlet_draws(rng, mix.dirichlet_params(counts, base, pick))
             plain = mix.strength[pick] == 0  # the counts-only candidate: the plug-in's posterior
             if plain.any():  # the cache is emptied by fit; a loaded model starts one here
                 cache = self.__dict__.setdefault("_row_weights", {})

@@ -226,32 +226,22 @@ def _loo_centres(flat, totals, sizes, membership, shrink) -> np.ndarray:
     return m / m.sum(axis=-1, keepdims=True)
 
 
-def _symmetric_log_marginals(flat: np.ndarray, grid: np.ndarray) -> np.ndarray:
-    """``[J, R]``: log probability of each row's sequence of states under Dirichlet(a, ..., a), every ``a`` of ``grid``.
+def _log_marginals(flat: np.ndarray, grid: np.ndarray, shapes: np.ndarray) -> np.ndarray:
+    """``[S J, R]``: log probability of each row's sequence of states under Dirichlet(k a m), shape by shape, ``a`` by ``a``.
 
+    ``shapes`` is ``[S, R, k]`` (each row's shape m under each kind of
+    candidate; the uniform shape gives the symmetric Dirichlet(a, ..., a)).
     The Dirichlet-multinomial: :math:`\\log\\Gamma(B) - \\log\\Gamma(N + B) +
     \\sum_s [\\log\\Gamma(n_s + b_s) - \\log\\Gamma(b_s)]` with :math:`B = \\sum_s
-    b_s` (the multinomial coefficient, the same under every prior, left
-    out). One ``[R, k]`` temporary at a time.
+    b_s = k a` (the multinomial coefficient, the same under every prior,
+    left out). A few ``[R, k]`` temporaries at a time.
     """
     from scipy.special import gammaln
 
     k = flat.shape[1]
     total = flat.sum(axis=1)
-    out = np.empty((grid.size, flat.shape[0]))
-    for j, a in enumerate(grid):
-        out[j] = gammaln(k * a) - gammaln(total + k * a) + gammaln(flat + a).sum(axis=1) - k * gammaln(a)
-    return out
-
-
-def _centred_log_marginals(flat: np.ndarray, grid: np.ndarray, centres: np.ndarray) -> np.ndarray:
-    """``[K J, R]``: as :func:`_symmetric_log_marginals` under Dirichlet(k a m_c), centre by centre (``centres`` ``[K, R, k]``)."""
-    from scipy.special import gammaln
-
-    k = flat.shape[1]
-    total = flat.sum(axis=1)
-    out = np.empty((centres.shape[0] * grid.size, flat.shape[0]))
-    for c, m in enumerate(centres):
+    out = np.empty((shapes.shape[0] * grid.size, flat.shape[0]))
+    for c, m in enumerate(shapes):
         for j, a in enumerate(grid):
             b = k * a * m
             out[c * grid.size + j] = (gammaln(k * a) - gammaln(total + k * a)
@@ -340,14 +330,14 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     freq = counts_only_rows(sub)
     n_centres = min(int(centres), fit.size)
     membership = _first_membership(freq, sub.sum(axis=1), n_centres) if n_centres else np.zeros((0, fit.size))
-    symmetric = _symmetric_log_marginals(sub, grid)  # [J, n], the same at every step
+    symmetric = _log_marginals(flat, grid, np.full((1,) + flat.shape, 1.0 / flat.shape[1]))  # [J, R], fixed
 
     w = np.full(n_grid * (1 + n_centres), 1.0 / (n_grid * (1 + n_centres)))
     extra = pseudo * np.concatenate([np.ones(n_grid), np.full(n_grid * n_centres, 1.0 / max(n_centres, 1))])
     best = -np.inf
     for _ in range(max_steps if fit.size else 0):
         centred = _loo_centres(sub, membership @ freq, membership.sum(axis=1), membership, shrink)
-        logjoint = np.log(w)[:, None] + np.concatenate([symmetric, _centred_log_marginals(sub, grid, centred)])
+        logjoint = np.log(w)[:, None] + np.concatenate([symmetric[:, fit], _log_marginals(sub, grid, centred)])
         top = logjoint.max(axis=0, keepdims=True)
         lognorm = np.log(np.exp(logjoint - top).sum(axis=0)) + top[0]
         resp = np.exp(logjoint - lognorm)
@@ -362,8 +352,7 @@ def fit_row_priors(counts: np.ndarray, grid=AUTO_ALPHAS, centres: int = ROW_PRIO
     full = np.zeros((n_centres, flat.shape[0]))
     full[:, fit] = membership
     totals, sizes = membership @ freq, membership.sum(axis=1)
-    loglik = np.concatenate([_symmetric_log_marginals(flat, grid),
-                             _centred_log_marginals(flat, grid, _loo_centres(flat, totals, sizes, full, shrink))])
+    loglik = np.concatenate([symmetric, _log_marginals(flat, grid, _loo_centres(flat, totals, sizes, full, shrink))])
     logpost = np.log(w)[:, None] + loglik
     post = np.exp(logpost - logpost.max(axis=0, keepdims=True))
     return RowPriors(grid, totals, sizes, full, float(shrink), post / post.sum(axis=0, keepdims=True))

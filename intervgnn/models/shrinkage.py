@@ -62,9 +62,16 @@ class Mixture:
         return float(self.weight[self.strength > 0].sum())
 
     def dirichlet_params(self, counts: np.ndarray, base: np.ndarray, pick: np.ndarray) -> np.ndarray:
-        """``[n, *counts.shape]``: the rows' Dirichlet parameters counts + s base + alpha under candidates ``pick`` [n]."""
+        """``[n, *counts.shape]``: the rows' Dirichlet parameters counts + s base + alpha under candidates ``pick`` [n].
+
+        ``base`` is the shape of ``counts`` (one decoder for every draw) or
+        ``[n, *counts.shape]`` (a decoder per draw).
+        """
         tail = (1,) * np.ndim(counts)
-        return (np.asarray(counts)[None] + self.strength[pick].reshape(-1, *tail) * np.asarray(base)[None]
+        base = np.asarray(base)
+        if base.ndim == np.ndim(counts):
+            base = base[None]
+        return (np.asarray(counts)[None] + self.strength[pick].reshape(-1, *tail) * base
                 + self.alpha[pick].reshape(-1, *tail))
 
 
