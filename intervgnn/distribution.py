@@ -34,8 +34,21 @@ class Interval:
         ``[draws, *shape]``: the answers the bounds are quantiles of (before
         the widening of ``include`` and ``estimate`` below).
 
-    ``include``, if given (the shape of the bounds), widens the bounds to
-    contain it where it is not NaN: the posterior intervals pass the
+    The bounds are the sample quantiles at positions ``p (n + 1)`` among the
+    ``n`` sorted draws (Hyndman & Fan 1996, definition 6; numpy's
+    ``"weibull"``), not numpy's default ``1 + p (n - 1)``. The k-th smallest
+    of n draws holds on average k / (n + 1) of the distribution below it
+    (the uniform order statistics' mean), so these bounds hold on average
+    exactly ``level`` of the distribution the draws came from; the default
+    positions hold less, ``level (n - 1) / (n + 1)``: 0.941 at 200 draws and
+    0.913 at 50 (the bootstrap's default), which a coverage check reads as
+    an interval too narrow. With fewer than ``2 / (1 - level) - 1`` draws
+    (39 at 95%) the bounds are the sample's extremes, which hold on average
+    (n - 1) / (n + 1).
+
+    ``include``, if given (the shape of the bounds, or a stack of such
+    arrays on a first axis), widens the bounds to contain it where it is
+    not NaN: the posterior intervals pass the
     probabilities the counts alone make exactly 0 or 1 there. ``estimate``,
     if given, is the answer the interval goes with, and the bounds always
     contain it: a bootstrap's percentiles, or a posterior whose row priors
@@ -51,10 +64,13 @@ class Interval:
         self.method = method
         self.samples = samples
         tail = (1.0 - self.level) / 2.0
-        self.lower, self.upper = np.quantile(samples, [tail, 1.0 - tail], axis=0)
+        self.lower, self.upper = np.quantile(samples, [tail, 1.0 - tail], axis=0, method="weibull")
         if include is not None:  # bounds widened to contain these values where not NaN (see Estimator._counts_only_answers)
             include = np.asarray(include, dtype=np.float64)
-            self.lower, self.upper = np.fmin(self.lower, include), np.fmax(self.upper, include)
+            if include.ndim == self.lower.ndim:
+                include = include[None]
+            self.lower = np.fmin(self.lower, np.fmin.reduce(include, axis=0))
+            self.upper = np.fmax(self.upper, np.fmax.reduce(include, axis=0))
         if estimate is not None:
             estimate = np.asarray(estimate, dtype=np.float64)
             self.lower, self.upper = np.minimum(self.lower, estimate), np.maximum(self.upper, estimate)

@@ -245,7 +245,7 @@ def test_an_interval_always_holds_its_own_answer():
     net = ig.load_network("random:nodes=20,seed=4")
     est = PluginEstimator().fit(net.sample(300, seed=1), net.graph)
     d = est.query_interval("V07", do={"V09": "s4", "V11": "s0", "V18": "s0"}, seed=0)
-    raw_lower = np.quantile(d.interval.samples, 0.025, axis=0)
+    raw_lower = np.quantile(d.interval.samples, 0.025, axis=0, method="weibull")
     assert raw_lower[1] > d.probs[1] + 0.05  # the situation arises here
     assert np.all(d.interval.lower <= d.probs) and np.all(d.probs <= d.interval.upper)
     e = est.effect_interval("V07", "V09", "s4", "s0", "s1", given=None, seed=0)
@@ -628,14 +628,64 @@ def test_a_probability_the_counts_make_zero_keeps_zero_inside_its_interval():
         # an answer the counts put inside (0, 1) keeps its quantile bounds, even where the counts-only
         # answer lies outside them (heavy smoothing, few rows)
         r = est.query_interval("Alarm", do={"Pump": "running"}, draws=200)
-        np.testing.assert_allclose(r.interval.lower, np.quantile(r.interval.samples, 0.025, axis=0))
+        np.testing.assert_allclose(r.interval.lower, np.quantile(r.interval.samples, 0.025, axis=0, method="weibull"))
         e = est.effect_interval("Alarm", "Pump", "running", "stopped", "on", draws=200)
         assert e.lower > 0.1 and e.excludes_zero
     heavy = PluginEstimator(alpha=300.0).fit(rows.take(np.arange(30)), graph)
     h = heavy.query_interval("Alarm", do={"Pump": "running"}, draws=200)
-    counts_only = heavy._counts_only_answers([("Alarm", {"Pump": "running"}, None)], heavy._counts_only)[0]
+    counts_only = heavy._counts_only_answers([("Alarm", {"Pump": "running"}, None)], heavy._counts)[0]
     assert np.isnan(counts_only).all()  # not at 0 or 1: no widening
-    np.testing.assert_allclose(h.interval.upper, np.quantile(h.interval.samples, 0.975, axis=0))
+    np.testing.assert_allclose(h.interval.upper, np.quantile(h.interval.samples, 0.975, axis=0, method="weibull"))
+
+
+def test_a_row_never_seen_leaves_room_for_zero_and_one():
+    # Valve -> Alarm <- Pump, Alarm never on while the pump is stopped (a structural zero), and a stopped pump
+    # with a shut valve never in the rows. The rows say nothing about that row: the likelihood is flat in it, so
+    # putting it on "off" fits them as well as the counts-only answer, which spreads it uniformly. With it on
+    # "off", P(Alarm=on | do(Pump=stopped)) is exactly 0; on "on", P(Alarm=off | ...) is not 1, so only the lower
+    # bound of "on" and the upper bound of "off" go to the boundary. For one proportion this is the modified
+    # Jeffreys rule (x = 0 and x = n both hold for n = 0; Brown, Cai & DasGupta 2001, Statistical Science
+    # 16:101-133; from memory). The quantiles alone stay above 0 (every drawn row is inside the simplex).
+    from intervgnn.bn.network import CausalNetwork
+
+    graph = ig.CausalGraph([("Pump", "Alarm"), ("Valve", "Alarm")])
+    states = {"Pump": ["running", "stopped"], "Valve": ["open", "shut"], "Alarm": ["on", "off"]}
+    cpts = {"Pump": np.array([0.7, 0.3]), "Valve": np.array([0.9, 0.1]),
+            "Alarm": np.array([[[0.3, 0.7], [0.6, 0.4]], [[0.0, 1.0], [0.0, 1.0]]])}
+    rows = CausalNetwork(graph, states, cpts).sample(600, seed=0)
+    pump, valve = (np.asarray(rows.column(v)) for v in ("Pump", "Valve"))
+    rows = rows.take(np.flatnonzero(~((pump == 1) & (valve == 1))))  # the (stopped, shut) row never seen
+    for est in (PluginEstimator(), NeuralEstimator(seed=0, steps=5)):
+        est.fit(rows, graph)
+        d = est.query_interval("Alarm", do={"Pump": "stopped"}, draws=200)
+        assert np.quantile(d.interval.samples[:, 0], 0.025, method="weibull") > 0.0
+        assert d.interval.lower[0] == 0.0 and d.interval.upper[1] == 1.0
+        assert d.interval.upper[0] < 1.0 and d.interval.lower[1] > 0.0
+        layers = est._counts_only_answers([("Alarm", {"Pump": "stopped"}, None)], est._counts if
+                                          isinstance(est, PluginEstimator) else
+                                          {v: c.reshape(s) for v, (c, _, _, s) in est._posterior.items()})[0]
+        assert np.isnan(layers[0]).all()  # the counts-only answer (the unseen row uniform) is inside (0, 1)
+        # a row seen in both states widens nothing
+        r = est.query_interval("Alarm", do={"Pump": "running"}, draws=200)
+        np.testing.assert_allclose(r.interval.lower, np.quantile(r.interval.samples, 0.025, axis=0, method="weibull"))
+        np.testing.assert_allclose(r.interval.upper, np.quantile(r.interval.samples, 0.975, axis=0, method="weibull"))
+
+
+def test_interval_bounds_hold_the_level_of_the_distribution_they_were_drawn_from():
+    # The k-th smallest of n draws lies on average at the k / (n + 1) quantile of their distribution (the mean
+    # of the uniform order statistics; David & Nagaraja 2003, Order Statistics, section 2.2; from memory). Bounds
+    # at positions p (n + 1) (Hyndman & Fan 1996, The American Statistician 50:361-365, definition 6) therefore
+    # hold a further draw from the same distribution with probability level; numpy's default positions
+    # 1 + p (n - 1) hold it with (1 - 2 p) (n - 1) / (n + 1): 0.913 at 50 draws, 0.941 at 200.
+    rng = np.random.default_rng(0)
+    for n in (50, 200):
+        default = 0.95 * (n - 1) / (n + 1)
+        draws = rng.random((20_000, n + 1))
+        iv = Interval(0.95, draws[:, 1:].T, "posterior")
+        inside = (iv.lower <= draws[:, 0]) & (draws[:, 0] <= iv.upper)
+        assert abs(inside.mean() - 0.95) < 0.005
+        lo, hi = np.quantile(draws[:, 1:], [0.025, 0.975], axis=1)
+        assert abs(((lo <= draws[:, 0]) & (draws[:, 0] <= hi)).mean() - default) < 0.006
 
 
 def test_csv_refuses_a_clashing_name_and_marks_an_unidentified_answer(tmp_path):

@@ -236,7 +236,7 @@ class Estimator:
         pair = [(outcome, {treatment: a}, given), (outcome, {treatment: b}, given)]
         pa, pb = self._interval_samples(pair, level, draws, seed)
         ia, ib = self._interval_include(pair)
-        include = None if ia is None or ib is None else ia[k] - ib[k]
+        include = None if ia is None or ib is None else ia[0][k] - ib[0][k]  # the counts-only layers
         return EffectEstimate(text, estimate, Interval(level, pa[:, k] - pb[:, k], self._interval_method(), include,
                                                        estimate=estimate))
 
@@ -247,23 +247,37 @@ class Estimator:
         """Per (target, do, given): values the interval's bounds are widened to contain, or None (default: none)."""
         return [None] * len(queries)
 
-    def _counts_only_answers(self, queries, cpts: Mapping[str, np.ndarray]) -> list:
-        """Where the answer under ``cpts`` (in place of the network's own) is exactly 0 or 1: that value, NaN elsewhere.
+    def _counts_only_answers(self, queries, counts: Mapping[str, np.ndarray]) -> list:
+        """Per query, ``[3, *shape]``: the exact 0s and 1s of the answer that the counts allow, NaN elsewhere.
 
-        None for a query whose evidence has probability zero under ``cpts``.
-        The posterior intervals pass the counts-only (unsmoothed) CPTs here.
-        A probability the counts make exactly 0 or 1 (a state never seen in
-        the rows that decide it) is one no posterior draw reaches, since
-        every drawn row is inside the simplex; the interval's bound is
-        widened to it. This is analogous to the x = 0 and x = n part of the
-        modified Jeffreys interval for one proportion, whose lower bound is
-        0 when no success is seen and upper bound 1 when no failure is
-        (Brown, Cai & DasGupta 2001, Statistical Science 16:101-133; from
-        memory). Elsewhere the bounds are the draws' quantiles.
+        ``counts`` are the fitted counts per variable, axes ``(*parents,
+        v)``. Layer 0 holds the 0s and 1s of the answer under the counts-only
+        CPTs (each count over its row total; a row never seen uniform).
+        Layers 1 and 2 hold every 0 and every 1 that the answer takes when
+        the rows of a target variable that were never seen are all put on
+        one of its states, for each state in turn: a row never seen leaves
+        the likelihood flat, so each of these CPT sets fits the rows as well
+        as the counts-only one. None for a query whose evidence has
+        probability zero under the counts-only CPTs.
+
+        A probability the counts allow to be exactly 0 or 1 is one no
+        posterior draw reaches, since every drawn row is inside the simplex
+        (a draw from a sparse prior gets within 1e-10 of it and still misses
+        a 0 in the network); the interval's bound is widened to it. This
+        follows the x = 0 and x = n part of the modified Jeffreys interval
+        for one proportion, whose lower bound is 0 when no success is seen
+        and upper bound 1 when no failure is (Brown, Cai & DasGupta 2001,
+        Statistical Science 16:101-133; from memory): for a row never seen,
+        x = 0 and x = n both hold. Only the target variables' unseen rows are
+        varied (a search over every variable's would be combinatorial).
+        Elsewhere the bounds are the draws' quantiles. Effect contrasts use
+        layer 0 alone (their two arms share the unseen rows).
         """
         from ..errors import ZeroEvidenceError
+        from .plugin import counts_only_rows
 
         engine = self.network_._engine
+        rows = {v: counts_only_rows(c) for v, c in counts.items()}
         out = []
         for target, do, given in queries:
             q = make_query(self.states_, target, do, given)
@@ -271,11 +285,33 @@ class Estimator:
             evidence = {v: self.states_[v].index(s) for v, s in q.given}
             plan = engine.plan(q.targets, tuple(codes), tuple(evidence))
             try:
-                arr = engine.query_array_batch(q.targets, {v: cpts[v][None] for v in plan.factor_vars}, codes, evidence)
+                arr = engine.query_array_batch(q.targets, {v: rows[v][None] for v in plan.factor_vars}, codes, evidence)
             except ZeroEvidenceError:
                 out.append(None)
-            else:
-                out.append(boundary_values(arr[0]))
+                continue
+            found = [arr[0]]
+            for t in q.targets:
+                unseen = counts[t].sum(axis=-1) == 0
+                if t not in plan.factor_vars or not unseen.any():
+                    continue
+                k = rows[t].shape[-1]
+                variants = np.repeat(rows[t][None], k, axis=0)  # [k, *cpt]: unseen rows on state j in variant j
+                variants[:, unseen] = np.eye(k)[:, None, :]
+                stack = {v: np.broadcast_to(rows[v], (k,) + rows[v].shape) for v in plan.factor_vars}
+                stack[t] = variants
+                try:
+                    found.extend(engine.query_array_batch(q.targets, stack, codes, evidence))
+                except ZeroEvidenceError:  # the evidence impossible in some variant: try them one by one
+                    for j in range(k):
+                        try:
+                            found.append(engine.query_array_batch(
+                                q.targets, {v: a[j:j + 1] for v, a in stack.items()}, codes, evidence)[0])
+                        except ZeroEvidenceError:
+                            pass
+            found = np.stack(found)
+            zeros = np.where((found == 0.0).any(axis=0), 0.0, np.nan)
+            ones = np.where((found == 1.0).any(axis=0), 1.0, np.nan)
+            out.append(np.stack([boundary_values(arr[0]), zeros, ones]))
         return out
 
     #: draws from the experimental rows' posterior when an interval is asked without ``draws``

@@ -574,10 +574,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""
         if not self._posterior_ready():
             return [None] * len(queries)
-        from .plugin import counts_only_rows
-
-        cpts = {v: counts_only_rows(counts).reshape(shape) for v, (counts, _, _, shape) in self._posterior.items()}
-        return self._counts_only_answers(queries, cpts)
+        return self._counts_only_answers(
+            queries, {v: counts.reshape(shape) for v, (counts, _, _, shape) in self._posterior.items()})
 
     def _interval_samples(self, queries, level, draws, seed) -> list[np.ndarray]:
         """Answers under CPT sets drawn from the posterior of the shrunk CPTs (whose mean is nearly the answer's CPTs).

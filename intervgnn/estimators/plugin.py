@@ -498,7 +498,6 @@ class PluginEstimator(ChecksIdentification, Estimator):
         self._counts = {}  # the posterior intervals draw from them (see _interval_samples)
         self._row_weights = {}
         cpts = count_cpts(table, factors, self.alpha, observational=confounded, raw=self._counts)
-        self._counts_only = {v: counts_only_rows(c) for v, c in self._counts.items()}
         self.graph_ = graph
         self.states_ = states
         self.network_ = CausalNetwork(factors, states, cpts, name="plug-in")
@@ -554,7 +553,7 @@ class PluginEstimator(ChecksIdentification, Estimator):
         """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""
         if self._hidden():
             return [None] * len(queries)
-        return self._counts_only_answers(queries, self._counts_only)
+        return self._counts_only_answers(queries, self._counts)
 
     def _answer(self, q: Query):
         ident = self.identification(q)
