@@ -633,7 +633,7 @@ def test_a_probability_the_counts_make_zero_keeps_zero_inside_its_interval():
         assert e.lower > 0.1 and e.excludes_zero
     heavy = PluginEstimator(alpha=300.0).fit(rows.take(np.arange(30)), graph)
     h = heavy.query_interval("Alarm", do={"Pump": "running"}, draws=200)
-    counts_only = heavy._counts_only_answers([("Alarm", {"Pump": "running"}, None)], heavy._counts)[0]
+    counts_only = heavy._interval_include([("Alarm", {"Pump": "running"}, None)])[0]
     assert np.isnan(counts_only).all()  # not at 0 or 1: no widening
     np.testing.assert_allclose(h.interval.upper, np.quantile(h.interval.samples, 0.975, axis=0, method="weibull"))
 
@@ -661,10 +661,9 @@ def test_a_row_never_seen_leaves_room_for_zero_and_one():
         assert np.quantile(d.interval.samples[:, 0], 0.025, method="weibull") > 0.0
         assert d.interval.lower[0] == 0.0 and d.interval.upper[1] == 1.0
         assert d.interval.upper[0] < 1.0 and d.interval.lower[1] > 0.0
-        layers = est._counts_only_answers([("Alarm", {"Pump": "stopped"}, None)], est._counts if
-                                          isinstance(est, PluginEstimator) else
-                                          {v: c.reshape(s) for v, (c, _, _, s) in est._posterior.items()})[0]
+        layers = est._interval_include([("Alarm", {"Pump": "stopped"}, None)])[0]
         assert np.isnan(layers[0]).all()  # the counts-only answer (the unseen row uniform) is inside (0, 1)
+        assert est._interval_include([("Alarm", {"Pump": "running"}, None)])[0].shape == (3, 2)
         # a row seen in both states widens nothing
         r = est.query_interval("Alarm", do={"Pump": "running"}, draws=200)
         np.testing.assert_allclose(r.interval.lower, np.quantile(r.interval.samples, 0.025, axis=0, method="weibull"))

@@ -247,12 +247,14 @@ class Estimator:
         """Per (target, do, given): values the interval's bounds are widened to contain, or None (default: none)."""
         return [None] * len(queries)
 
-    def _counts_only_answers(self, queries, counts: Mapping[str, np.ndarray]) -> list:
+    def _counts_only_answers(self, queries, counts: Mapping[str, np.ndarray], rows: Mapping[str, np.ndarray]) -> list:
         """Per query, ``[3, *shape]``: the exact 0s and 1s of the answer that the counts allow, NaN elsewhere.
 
         ``counts`` are the fitted counts per variable, axes ``(*parents,
-        v)``. Layer 0 holds the 0s and 1s of the answer under the counts-only
-        CPTs (each count over its row total; a row never seen uniform).
+        v)``, and ``rows`` the counts-only CPTs made of them
+        (:func:`~intervgnn.estimators.plugin.counts_only_rows`: each count
+        over its row total, a row never seen uniform). Layer 0 holds the 0s
+        and 1s of the answer under the counts-only CPTs.
         Layers 1 and 2 hold every 0 and every 1 that the answer takes when
         the rows of a target variable that were never seen are all put on
         one of its states, for each state in turn: a row never seen leaves
@@ -274,10 +276,8 @@ class Estimator:
         layer 0 alone (their two arms share the unseen rows).
         """
         from ..errors import ZeroEvidenceError
-        from .plugin import counts_only_rows
 
         engine = self.network_._engine
-        rows = {v: counts_only_rows(c) for v, c in counts.items()}
         out = []
         for target, do, given in queries:
             q = make_query(self.states_, target, do, given)
@@ -291,21 +291,27 @@ class Estimator:
                 continue
             found = [arr[0]]
             for t in q.targets:
+                if t not in plan.factor_vars:
+                    continue
+                # the rows the answer reads: a parent set by do= or observed by given= fixes its axis
+                fixed = {**codes, **evidence}
                 unseen = counts[t].sum(axis=-1) == 0
-                if t not in plan.factor_vars or not unseen.any():
+                read = tuple(slice(fixed[p], fixed[p] + 1) if p in fixed else slice(None)
+                             for p in self.network_.graph.parents(t))
+                if not unseen[read].any():
                     continue
                 k = rows[t].shape[-1]
                 variants = np.repeat(rows[t][None], k, axis=0)  # [k, *cpt]: unseen rows on state j in variant j
                 variants[:, unseen] = np.eye(k)[:, None, :]
-                stack = {v: np.broadcast_to(rows[v], (k,) + rows[v].shape) for v in plan.factor_vars}
+                stack = {v: rows[v][None] for v in plan.factor_vars}  # a batch of one broadcasts against the k
                 stack[t] = variants
                 try:
                     found.extend(engine.query_array_batch(q.targets, stack, codes, evidence))
                 except ZeroEvidenceError:  # the evidence impossible in some variant: try them one by one
                     for j in range(k):
+                        stack[t] = variants[j : j + 1]
                         try:
-                            found.append(engine.query_array_batch(
-                                q.targets, {v: a[j:j + 1] for v, a in stack.items()}, codes, evidence)[0])
+                            found.append(engine.query_array_batch(q.targets, stack, codes, evidence)[0])
                         except ZeroEvidenceError:
                             pass
             found = np.stack(found)

@@ -414,7 +414,8 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """Drop everything a previous fit learned (a new fit starts clean; a failed one leaves nothing)."""
         for name in ("graph_", "states_", "cells_", "n_rows_", "models_", "train_results_", "latent_scores_",
                      "mixtures_", "network_", "answer_mode_", "table_rows_", "_count_rows", "_identifications",
-                     "_fitted_rows", "_bootstrap_refits", "_posterior", "_fold_bases", "_posterior_draws_kept"):
+                     "_fitted_rows", "_bootstrap_refits", "_posterior", "_fold_bases", "_posterior_draws_kept",
+                     "_counts_only"):
             self.__dict__.pop(name, None)
 
     # ------------------------------------------------------------ answering
@@ -574,8 +575,12 @@ class NeuralEstimator(ChecksIdentification, Estimator):
         """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""
         if not self._posterior_ready():
             return [None] * len(queries)
-        return self._counts_only_answers(
-            queries, {v: counts.reshape(shape) for v, (counts, _, _, shape) in self._posterior.items()})
+        if "_counts_only" not in self.__dict__:  # computed once, for every interval after
+            from .plugin import counts_only_rows
+
+            counts = {v: c.reshape(shape) for v, (c, _, _, shape) in self._posterior.items()}
+            self._counts_only = (counts, {v: counts_only_rows(c) for v, c in counts.items()})
+        return self._counts_only_answers(queries, *self._counts_only)
 
     def _interval_samples(self, queries, level, draws, seed) -> list[np.ndarray]:
         """Answers under CPT sets drawn from the posterior of the shrunk CPTs (whose mean is nearly the answer's CPTs).

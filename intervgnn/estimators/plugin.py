@@ -498,6 +498,7 @@ class PluginEstimator(ChecksIdentification, Estimator):
         self._counts = {}  # the posterior intervals draw from them (see _interval_samples)
         self._row_weights = {}
         cpts = count_cpts(table, factors, self.alpha, observational=confounded, raw=self._counts)
+        self._counts_only = {v: counts_only_rows(c) for v, c in self._counts.items()}  # for the interval bounds
         self.graph_ = graph
         self.states_ = states
         self.network_ = CausalNetwork(factors, states, cpts, name="plug-in")
@@ -553,7 +554,7 @@ class PluginEstimator(ChecksIdentification, Estimator):
         """The counts-only answers (see :meth:`Estimator._counts_only_answers`); none for bootstrap intervals."""
         if self._hidden():
             return [None] * len(queries)
-        return self._counts_only_answers(queries, self._counts)
+        return self._counts_only_answers(queries, self._counts, self._counts_only)
 
     def _answer(self, q: Query):
         ident = self.identification(q)
