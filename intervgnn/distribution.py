@@ -33,6 +33,10 @@ class Interval:
     samples : numpy.ndarray
         ``[draws, *shape]``: the answers the bounds are quantiles of (before
         the widening of ``include`` and ``estimate`` below).
+    widened : numpy.ndarray
+        Bool, the shape of the bounds: where ``include`` moved a bound
+        beyond the draws' quantile (to a 0 or 1 the counts allow; printed
+        with a ``*``).
 
     The bounds are the sample quantiles at positions ``p (n + 1)`` among the
     ``n`` sorted draws (Hyndman & Fan 1996, definition 6; numpy's
@@ -65,16 +69,19 @@ class Interval:
         self.samples = samples
         tail = (1.0 - self.level) / 2.0
         self.lower, self.upper = np.quantile(samples, [tail, 1.0 - tail], axis=0, method="weibull")
+        self.widened = np.zeros(self.lower.shape, dtype=bool)
         if include is not None:  # bounds widened to contain these values where not NaN (see Estimator._counts_only_answers)
             include = np.asarray(include, dtype=np.float64)
             if include.ndim == self.lower.ndim:
                 include = include[None]
-            self.lower = np.fmin(self.lower, np.fmin.reduce(include, axis=0))
-            self.upper = np.fmax(self.upper, np.fmax.reduce(include, axis=0))
+            lower = np.fmin(self.lower, np.fmin.reduce(include, axis=0))
+            upper = np.fmax(self.upper, np.fmax.reduce(include, axis=0))
+            self.widened = (lower < self.lower) | (upper > self.upper)
+            self.lower, self.upper = lower, upper
         if estimate is not None:
             estimate = np.asarray(estimate, dtype=np.float64)
             self.lower, self.upper = np.minimum(self.lower, estimate), np.maximum(self.upper, estimate)
-        for a in (self.samples, self.lower, self.upper):
+        for a in (self.samples, self.lower, self.upper, self.widened):
             a.setflags(write=False)
 
     @property
@@ -83,7 +90,7 @@ class Interval:
 
     def to_dict(self) -> dict:
         return {"level": self.level, "method": self.method, "draws": self.draws,
-                "lower": self.lower.tolist(), "upper": self.upper.tolist()}
+                "lower": self.lower.tolist(), "upper": self.upper.tolist(), "widened": self.widened.tolist()}
 
 
 def boundary_values(p) -> np.ndarray:
@@ -374,8 +381,8 @@ class Distribution:
         else:
             rows = [list(combo) + [f"{p:.{digits}f}"] for combo, p in self.items()]
             if iv is not None:
-                for r, lo, hi in zip(rows, iv.lower.reshape(-1), iv.upper.reshape(-1)):
-                    r.append(f"{lo:.{digits}f} to {hi:.{digits}f}")
+                for r, lo, hi, w in zip(rows, iv.lower.reshape(-1), iv.upper.reshape(-1), iv.widened.reshape(-1)):
+                    r.append(f"{lo:.{digits}f} to {hi:.{digits}f}" + ("*" if w else ""))
         widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
         lines = []
         if self.description:
@@ -394,6 +401,9 @@ class Distribution:
         if iv is not None:
             lines.append(f"interval: central {iv.level:.0%} of {iv.draws:,} {iv.method} draws; it covers the "
                          "uncertainty from the rows, not the diagram's assumptions")
+            if iv.widened.any():
+                lines.append("* a bound moved to 0 or 1, which no draw reaches: the rows that decide this probability "
+                             "leave that value possible (a state never seen there, or rows never seen at all)")
         return "\n".join(lines)
 
     def __str__(self) -> str:

@@ -661,6 +661,9 @@ def test_a_row_never_seen_leaves_room_for_zero_and_one():
         assert np.quantile(d.interval.samples[:, 0], 0.025, method="weibull") > 0.0
         assert d.interval.lower[0] == 0.0 and d.interval.upper[1] == 1.0
         assert d.interval.upper[0] < 1.0 and d.interval.lower[1] > 0.0
+        # "on" was widened (its quantile was above 0); "off"'s draws reach 1.0 in floating point on their own
+        assert d.interval.widened[0] and d.to_dict()["interval"]["widened"][0] is True
+        assert "0.0000 to " in str(d) and "* a bound moved to 0 or 1" in str(d)
         layers = est._interval_include([("Alarm", {"Pump": "stopped"}, None)])[0]
         assert np.isnan(layers[0]).all()  # the counts-only answer (the unseen row uniform) is inside (0, 1)
         assert est._interval_include([("Alarm", {"Pump": "running"}, None)])[0].shape == (3, 2)
@@ -668,6 +671,7 @@ def test_a_row_never_seen_leaves_room_for_zero_and_one():
         r = est.query_interval("Alarm", do={"Pump": "running"}, draws=200)
         np.testing.assert_allclose(r.interval.lower, np.quantile(r.interval.samples, 0.025, axis=0, method="weibull"))
         np.testing.assert_allclose(r.interval.upper, np.quantile(r.interval.samples, 0.975, axis=0, method="weibull"))
+        assert not r.interval.widened.any() and "*" not in str(r)
 
 
 def test_interval_bounds_hold_the_level_of_the_distribution_they_were_drawn_from():
