@@ -296,6 +296,31 @@ def test_a_relational_probability_the_counts_make_zero_stays_inside_its_interval
     assert d.interval.lower[i] == 0.0 <= d.interval.upper[i]
 
 
+def test_a_relational_row_never_seen_leaves_room_for_zero_and_one():
+    # Markets price by how many of their groves are vigorous (bins 0, 1-2, 3+). In this draw no
+    # market has three vigorous groves, so the 3+ row is never seen; setting all six groves of market 6 vigorous reads
+    # the 3+ row alone. The rows say nothing about it: each state's probability may be 0 or 1, as in the
+    # modified Jeffreys rule for n = 0 (Brown, Cai & DasGupta 2001, Statistical Science 16:101-133; from
+    # memory), while the draws (rows inside the simplex) stay strictly inside (0, 1).
+    from intervgnn.relational import sample_data
+    from intervgnn.relational.estimate import _linked
+
+    template, skeleton = relational_benchmark("chain", instances=40, degree=2, seed=4)
+    est = RelationalPluginEstimator().fit(sample_data(template, skeleton, draws=1, seed=0), template)
+    assert est.counts_[("market", "Price")].sum(axis=-1).tolist() == [30.0, 10.0, 0.0]
+    groves = _linked(skeleton, "market", "6", "grove")
+    assert len(groves) == 6
+    q = UnitQuery(("market", "6", "Price"), do={("grove", g, "Vigour"): "high" for g in groves})
+    d = est.query_interval(q, draws=200, seed=0)
+    s = d.interval.samples
+    assert (s.min(axis=0) > 0.0).all() and (s.max(axis=0) < 1.0).all()
+    assert (d.interval.lower == 0.0).all() and (d.interval.upper == 1.0).all() and d.interval.widened.all()
+    # a market without groves reads only the seen row "0": the never-seen rows add no 0 or 1 to its answer's
+    layers = est._boundary_layers(skeleton, UnitQuery(("market", "7", "Price")))
+    np.testing.assert_array_equal(layers[1], np.where(layers[0] == 0.0, 0.0, np.nan))
+    np.testing.assert_array_equal(layers[2], np.where(layers[0] == 1.0, 1.0, np.nan))
+
+
 def test_no_relational_interval_on_a_monte_carlo_answer(monkeypatch):
     # an interval would repeat the 40,000-draw simulation once per posterior draw: refused with the reason
     import intervgnn.bn.exact as exact

@@ -39,7 +39,8 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..distribution import Distribution, Interval, boundary_values
-from ..errors import DataError, GraphError, NetworkError, NotFittedError, QueryError, did_you_mean, short_repr, shorten
+from ..errors import (DataError, GraphError, NetworkError, NotFittedError, QueryError, ZeroEvidenceError, did_you_mean,
+                      short_repr, shorten)
 from ..estimators.base import Estimator, check_alpha
 from ..estimators.plugin import counts_only_rows, dirichlet_draws, dirichlet_params
 from .data import RelationalData
@@ -702,9 +703,10 @@ class RelationalPluginEstimator(Estimator):
         answers, on every probability of a unit or population answer and on
         each of a spill-over answer's three contrasts. Like every interval
         of the package it covers the uncertainty from the data, not the
-        template's assumptions. A probability the counts alone make exactly
-        0 or 1 keeps that value inside its interval (no draw reaches it),
-        and the interval always holds the answer itself.
+        template's assumptions. A probability the counts allow to be exactly
+        0 or 1 keeps that value inside its interval (no draw reaches it; see
+        :meth:`_boundary_layers`), and the interval always holds the answer
+        itself.
         Each draw grounds the query's part of the skeleton again: a unit
         query costs draws times a pruned grounding, a population query
         draws times the whole skeleton. A query the exact engine cannot
@@ -743,17 +745,48 @@ class RelationalPluginEstimator(Estimator):
             return replace(point, intervals={name: Interval(level, samples[:, j], "posterior",
                                                             estimate=getattr(point, name))
                                              for j, name in enumerate(("own", "neighbours", "both"))})
-        # a probability the counts alone make exactly 0 or 1 is never reached by a draw: the bound goes there
-        # (as Estimator._counts_only_answers does for one table)
-        include = boundary_values(_answer(self._counts_only_template(), skeleton, query).probs)
         return Distribution(point.variables, point.states, point.probs, description=point.description,
-                            interval=Interval(level, samples, "posterior", include, estimate=point.probs))
+                            interval=Interval(level, samples, "posterior", self._boundary_layers(skeleton, query),
+                                              estimate=point.probs))
 
-    def _counts_only_template(self) -> Template:
-        """The fitted template with unsmoothed CPTs (count / row total; a row never seen uniform)."""
+    def _boundary_layers(self, skeleton: Skeleton, query) -> np.ndarray:
+        """``[3, *shape]``: the answer's exact 0s and 1s that the counts allow, NaN elsewhere.
+
+        As :meth:`Estimator._counts_only_answers` does for one table: layer 0
+        the 0s and 1s of the counts-only answer (a probability no draw
+        reaches, since every drawn row is inside the simplex); layers 1 and
+        2 every 0 and every 1 the answer takes when the never-seen rows of
+        the outcome's mechanism are all put on one of its states (the rows
+        say nothing about them, so each such template fits them as well).
+        """
+        plain = self._counts_only_template()
+        found = [_answer(plain, skeleton, query).probs]
+        if isinstance(query, UnitQuery):
+            entity, _, attribute = _resolve(query.target, skeleton, "target")
+        else:
+            entity, attribute = query.entity, query.attribute
+        counts = self.counts_[(entity, attribute)]
+        unseen = counts.sum(axis=-1) == 0
+        if unseen.any():
+            k = counts.shape[-1]
+            for j in range(k):
+                rows = counts_only_rows(counts)
+                rows[unseen] = np.eye(k)[j]
+                variant = self._counts_only_template({(entity, attribute): rows})
+                try:
+                    found.append(_answer(variant, skeleton, query).probs)
+                except ZeroEvidenceError:  # the evidence impossible in this variant
+                    pass
+        found = np.stack(found)
+        return np.stack([boundary_values(found[0]), np.where((found == 0.0).any(axis=0), 0.0, np.nan),
+                         np.where((found == 1.0).any(axis=0), 1.0, np.nan)])
+
+    def _counts_only_template(self, rows: Mapping | None = None) -> Template:
+        """The fitted template with unsmoothed CPTs (count / row total; a row never seen uniform), or ``rows`` given."""
+        rows = rows or {}
         return Template(self.template_.schema, [
-            Mechanism(m.entity, m.attribute, counts_only_rows(self.counts_[key]), parents=m.parents,
-                      aggregates=m.aggregates)
+            Mechanism(m.entity, m.attribute, rows[key] if key in rows else counts_only_rows(self.counts_[key]),
+                      parents=m.parents, aggregates=m.aggregates)
             for key, m in self.template_.mechanisms.items()
         ])
 
