@@ -141,7 +141,7 @@ class EffectEstimate:
         iv = self.interval
         return {"description": self.description, "estimate": self.estimate, "level": iv.level, "lower": self.lower,
                 "upper": self.upper, "method": iv.method, "draws": iv.draws, "probability_positive": self.positive,
-                "interval_excludes_zero": self.excludes_zero}
+                "interval_excludes_zero": self.excludes_zero, "widened": bool(iv.widened.any())}
 
     def to_csv(self, path) -> None:
         """Write the contrast as a CSV file (a header and one row: the fields of :meth:`to_dict`).
@@ -156,8 +156,10 @@ class EffectEstimate:
     def __str__(self) -> str:
         iv = self.interval
         side = ("excludes zero" if self.excludes_zero else "includes zero")
+        moved = (" (a bound moved beyond the draws' quantile to a value the counts leave possible)"
+                 if iv.widened.any() else "")
         return (f"{self.description}\n  estimate {self.estimate:+.4f}, {iv.level:.0%} interval {self.lower:+.4f} to "
-                f"{self.upper:+.4f} ({side})\n  probability the effect is positive: {self.positive:.3f} "
+                f"{self.upper:+.4f} ({side}){moved}\n  probability the effect is positive: {self.positive:.3f} "
                 f"({iv.draws:,} {iv.method} draws; the diagram's assumptions are not in it)")
 
     def __repr__(self) -> str:
@@ -361,6 +363,13 @@ class Distribution:
             header.append(f"{iv.level:.0%} interval")
         total = int(self.probs.size)
         note = None
+        if iv is not None:  # a bound moved beyond the draws' quantile is marked; the others keep the column aligned
+            flags = iv.widened.reshape(-1)
+            marked = bool(flags.any())
+
+            def cell(j):
+                text = f"{iv.lower.reshape(-1)[j]:.{digits}f} to {iv.upper.reshape(-1)[j]:.{digits}f}"
+                return text + ("*" if flags[j] else " ") if marked else text
         if max_rows is not None and total > max_rows:
             # the largest entries, found without walking every row in Python
             flat = self.probs.reshape(-1)
@@ -370,7 +379,7 @@ class Distribution:
             codes = np.unravel_index(top, self.probs.shape)
             rows = [
                 [self.states[i][int(codes[i][r])] for i in range(len(self.variables))] + [f"{flat[j]:.{digits}f}"]
-                + ([f"{iv.lower.reshape(-1)[j]:.{digits}f} to {iv.upper.reshape(-1)[j]:.{digits}f}"] if iv is not None else [])
+                + ([cell(j)] if iv is not None else [])
                 for r, j in enumerate(top)
             ]
             note = (
@@ -381,8 +390,8 @@ class Distribution:
         else:
             rows = [list(combo) + [f"{p:.{digits}f}"] for combo, p in self.items()]
             if iv is not None:
-                for r, lo, hi, w in zip(rows, iv.lower.reshape(-1), iv.upper.reshape(-1), iv.widened.reshape(-1)):
-                    r.append(f"{lo:.{digits}f} to {hi:.{digits}f}" + ("*" if w else ""))
+                for j, r in enumerate(rows):
+                    r.append(cell(j))
         widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
         lines = []
         if self.description:
@@ -401,8 +410,8 @@ class Distribution:
         if iv is not None:
             lines.append(f"interval: central {iv.level:.0%} of {iv.draws:,} {iv.method} draws; it covers the "
                          "uncertainty from the rows, not the diagram's assumptions")
-            if iv.widened.any():
-                lines.append("* a bound moved to 0 or 1, which no draw reaches: the rows that decide this probability "
+            if any(r[-1].endswith("*") for r in rows):
+                lines.append("* a bound moved to 0 or 1 beyond the draws' quantile: the rows that decide this probability "
                              "leave that value possible (a state never seen there, or rows never seen at all)")
         return "\n".join(lines)
 

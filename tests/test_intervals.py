@@ -674,6 +674,37 @@ def test_a_row_never_seen_leaves_room_for_zero_and_one():
         assert not r.interval.widened.any() and "*" not in str(r)
 
 
+def test_a_widened_bound_is_marked_in_every_view():
+    # the mark follows the bound in a full table, in a shortened one and in an effect contrast; unmarked bounds
+    # stay aligned with marked ones (common practice, no source)
+    rng = np.random.default_rng(0)
+    alpha = np.ones(60)
+    alpha[:3] = 20.0  # s0, s1, s2 the largest: the ones a shortened table shows
+    samples = rng.dirichlet(alpha, size=200)
+    states = [[f"s{i}" for i in range(60)]]
+
+    def table(marked, **kw):
+        include = np.full(60, np.nan)
+        include[marked] = 0.0
+        d = Distribution(["V"], states, samples.mean(axis=0), interval=Interval(0.95, samples, "posterior", include))
+        lines = d.format(**kw).splitlines()
+        return d, [line for line in lines if line.startswith("s")], lines[-1]
+
+    d, rows, last = table([0, 1, 2, 40], max_rows=None)
+    assert d.interval.widened.tolist() == [i in (0, 1, 2, 40) for i in range(60)]
+    assert [line.split()[0] for line in rows if line.endswith("*")] == ["s0", "s1", "s2", "s40"]
+    assert len({line.index(" to ") for line in rows}) == 1 and last.startswith("* a bound moved to 0 or 1")
+    _, shown, last = table([0, 40], max_rows=50, show=3)
+    assert [line.split()[0] for line in shown if line.endswith("*")] == ["s0"] and len(shown) == 3
+    assert last.startswith("* a bound moved")
+    _, shown, last = table([40], max_rows=50, show=3)  # the widened entry is not shown: no mark, no footnote
+    assert not any(line.endswith("*") for line in shown) and not last.startswith("*")
+    e = EffectEstimate("c", 0.5, Interval(0.95, rng.normal(0.5, 0.1, 200), "posterior", 1.0, estimate=0.5))
+    assert e.upper == 1.0 and e.to_dict()["widened"] is True and "a bound moved" in str(e)
+    plain = EffectEstimate("c", 0.5, Interval(0.95, rng.normal(0.5, 0.1, 200), "posterior", estimate=0.5))
+    assert plain.to_dict()["widened"] is False and "a bound moved" not in str(plain)
+
+
 def test_interval_bounds_hold_the_level_of_the_distribution_they_were_drawn_from():
     # The k-th smallest of n draws lies on average at the k / (n + 1) quantile of their distribution (the mean
     # of the uniform order statistics; David & Nagaraja 2003, Order Statistics, section 2.2; from memory). Bounds

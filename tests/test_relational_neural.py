@@ -315,6 +315,12 @@ def test_a_relational_row_never_seen_leaves_room_for_zero_and_one():
     s = d.interval.samples
     assert (s.min(axis=0) > 0.0).all() and (s.max(axis=0) < 1.0).all()
     assert (d.interval.lower == 0.0).all() and (d.interval.upper == 1.0).all() and d.interval.widened.all()
+    # evidence the counts alone make impossible (a grove-less market never priced high) still gets an interval,
+    # from the smoothed draws, without the widening
+    q = UnitQuery("nursery_1__Stock", given={"market_7__Price": "high"})
+    assert est._boundary_layers(skeleton, q) is None
+    d = est.query_interval(q, draws=50, seed=0)
+    assert not d.interval.widened.any() and d.interval.lower[0] <= d.probs[0] <= d.interval.upper[0]
     # a market without groves reads only the seen row "0": the never-seen rows add no 0 or 1 to its answer's
     layers = est._boundary_layers(skeleton, UnitQuery(("market", "7", "Price")))
     np.testing.assert_array_equal(layers[1], np.where(layers[0] == 0.0, 0.0, np.nan))

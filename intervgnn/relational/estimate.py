@@ -749,7 +749,7 @@ class RelationalPluginEstimator(Estimator):
                             interval=Interval(level, samples, "posterior", self._boundary_layers(skeleton, query),
                                               estimate=point.probs))
 
-    def _boundary_layers(self, skeleton: Skeleton, query) -> np.ndarray:
+    def _boundary_layers(self, skeleton: Skeleton, query) -> np.ndarray | None:
         """``[3, *shape]``: the answer's exact 0s and 1s that the counts allow, NaN elsewhere.
 
         As :meth:`Estimator._counts_only_answers` does for one table: layer 0
@@ -758,9 +758,13 @@ class RelationalPluginEstimator(Estimator):
         2 every 0 and every 1 the answer takes when the never-seen rows of
         the outcome's mechanism are all put on one of its states (the rows
         say nothing about them, so each such template fits them as well).
+        None where the counts-only template gives the query's evidence
+        probability zero.
         """
-        plain = self._counts_only_template()
-        found = [_answer(plain, skeleton, query).probs]
+        try:
+            found = [_answer(self._counts_only_template(), skeleton, query).probs]
+        except ZeroEvidenceError:  # the evidence impossible under the counts alone: no widening
+            return None
         if isinstance(query, UnitQuery):
             entity, _, attribute = _resolve(query.target, skeleton, "target")
         else:
