@@ -103,6 +103,18 @@ def boundary_values(p) -> np.ndarray:
     return np.where((p == 0.0) | (p == 1.0), p, np.nan)
 
 
+def boundary_layers(answers) -> np.ndarray:
+    """``[3, *shape]`` for an :class:`Interval`'s ``include``, from answers the counts allow (the counts-only one first).
+
+    Layer 0 the 0s and 1s of the first answer (:func:`boundary_values`),
+    layer 1 every 0 and layer 2 every 1 that any of them takes; NaN
+    elsewhere.
+    """
+    found = np.stack([np.asarray(a, dtype=np.float64) for a in answers])
+    return np.stack([boundary_values(found[0]), np.where((found == 0.0).any(axis=0), 0.0, np.nan),
+                     np.where((found == 1.0).any(axis=0), 1.0, np.nan)])
+
+
 class EffectEstimate:
     """A contrast P(Y=y | do(X=a)) - P(Y=y | do(X=b)) with its interval and the decision view.
 

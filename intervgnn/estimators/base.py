@@ -6,7 +6,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from ..distribution import Distribution, EffectEstimate, Interval, boundary_values
+from ..distribution import Distribution, EffectEstimate, Interval, boundary_layers, boundary_values
 from ..errors import DataError, IntervgnnError, NotFittedError, QueryError, did_you_mean, shorten
 from ..graph import CausalGraph
 from ..query import Query, check_seed, check_state, check_variable, make_query
@@ -276,6 +276,7 @@ class Estimator:
         layer 0 alone (their two arms share the unseen rows).
         """
         from ..errors import ZeroEvidenceError
+        from .plugin import unseen_row_variants
 
         engine = self.network_._engine
         out = []
@@ -290,34 +291,28 @@ class Estimator:
                 out.append(None)
                 continue
             found = [arr[0]]
+            fixed = {**codes, **evidence}
             for t in q.targets:
                 if t not in plan.factor_vars:
                     continue
                 # the rows the answer reads: a parent set by do= or observed by given= fixes its axis
-                fixed = {**codes, **evidence}
-                unseen = counts[t].sum(axis=-1) == 0
                 read = tuple(slice(fixed[p], fixed[p] + 1) if p in fixed else slice(None)
                              for p in self.network_.graph.parents(t))
-                if not unseen[read].any():
+                if not (counts[t][read].sum(axis=-1) == 0).any():
                     continue
-                k = rows[t].shape[-1]
-                variants = np.repeat(rows[t][None], k, axis=0)  # [k, *cpt]: unseen rows on state j in variant j
-                variants[:, unseen] = np.eye(k)[:, None, :]
+                variants = unseen_row_variants(counts[t], rows[t])
                 stack = {v: rows[v][None] for v in plan.factor_vars}  # a batch of one broadcasts against the k
                 stack[t] = variants
                 try:
                     found.extend(engine.query_array_batch(q.targets, stack, codes, evidence))
                 except ZeroEvidenceError:  # the evidence impossible in some variant: try them one by one
-                    for j in range(k):
+                    for j in range(len(variants)):
                         stack[t] = variants[j : j + 1]
                         try:
                             found.append(engine.query_array_batch(q.targets, stack, codes, evidence)[0])
                         except ZeroEvidenceError:
                             pass
-            found = np.stack(found)
-            zeros = np.where((found == 0.0).any(axis=0), 0.0, np.nan)
-            ones = np.where((found == 1.0).any(axis=0), 1.0, np.nan)
-            out.append(np.stack([boundary_values(arr[0]), zeros, ones]))
+            out.append(boundary_layers(found))
         return out
 
     #: draws from the experimental rows' posterior when an interval is asked without ``draws``

@@ -17,6 +17,7 @@ from .estimand import network_oracle
 __all__ = [
     "PluginEstimator", "count_cpts", "count_table", "loo_alpha", "observational_dag", "AUTO_ALPHAS", "MAX_CPT_CELLS",
     "dirichlet_params", "fit_row_priors", "RowPriors", "ROW_PRIOR_CENTRES", "row_prior_weights", "mixed_dirichlet_rows",
+    "unseen_row_variants",
 ]
 
 
@@ -104,6 +105,18 @@ def counts_only_rows(counts: np.ndarray) -> np.ndarray:
     counts = np.asarray(counts, dtype=np.float64)
     seen = counts.sum(axis=-1, keepdims=True)
     return np.divide(counts, seen, out=np.full(counts.shape, 1.0 / counts.shape[-1]), where=seen > 0)
+
+
+def unseen_row_variants(counts: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """``[k, *counts.shape]``: the counts-only ``rows`` with every row never seen put on state ``j`` in variant ``j``.
+
+    A row never seen leaves the likelihood flat, so each variant fits the
+    counts as well as ``rows`` (:func:`counts_only_rows` of them) does.
+    """
+    k = counts.shape[-1]
+    variants = np.repeat(np.asarray(rows, dtype=np.float64)[None], k, axis=0)
+    variants[:, counts.sum(axis=-1) == 0] = np.eye(k)[:, None, :]
+    return variants
 
 
 def dirichlet_params(counts: np.ndarray, alpha: float) -> np.ndarray:

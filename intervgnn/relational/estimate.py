@@ -38,11 +38,11 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from ..distribution import Distribution, Interval, boundary_values
+from ..distribution import Distribution, Interval, boundary_layers
 from ..errors import (DataError, GraphError, NetworkError, NotFittedError, QueryError, ZeroEvidenceError, did_you_mean,
                       short_repr, shorten)
 from ..estimators.base import Estimator, check_alpha
-from ..estimators.plugin import counts_only_rows, dirichlet_draws, dirichlet_params
+from ..estimators.plugin import counts_only_rows, dirichlet_draws, dirichlet_params, unseen_row_variants
 from .data import RelationalData
 from .grounding import MAX_GROUND_VARIABLES, _related, ground
 from .model import Mechanism, Schema, Template, node_name, split_node_name
@@ -770,20 +770,13 @@ class RelationalPluginEstimator(Estimator):
         else:
             entity, attribute = query.entity, query.attribute
         counts = self.counts_[(entity, attribute)]
-        unseen = counts.sum(axis=-1) == 0
-        if unseen.any():
-            k = counts.shape[-1]
-            for j in range(k):
-                rows = counts_only_rows(counts)
-                rows[unseen] = np.eye(k)[j]
-                variant = self._counts_only_template({(entity, attribute): rows})
+        if (counts.sum(axis=-1) == 0).any():
+            for rows in unseen_row_variants(counts, counts_only_rows(counts)):
                 try:
-                    found.append(_answer(variant, skeleton, query).probs)
+                    found.append(_answer(self._counts_only_template({(entity, attribute): rows}), skeleton, query).probs)
                 except ZeroEvidenceError:  # the evidence impossible in this variant
                     pass
-        found = np.stack(found)
-        return np.stack([boundary_values(found[0]), np.where((found == 0.0).any(axis=0), 0.0, np.nan),
-                         np.where((found == 1.0).any(axis=0), 1.0, np.nan)])
+        return boundary_layers(found)
 
     def _counts_only_template(self, rows: Mapping | None = None) -> Template:
         """The fitted template with unsmoothed CPTs (count / row total; a row never seen uniform), or ``rows`` given."""
