@@ -722,6 +722,28 @@ def test_interval_bounds_hold_the_level_of_the_distribution_they_were_drawn_from
         assert abs(((lo <= draws[:, 0]) & (draws[:, 0] <= hi)).mean() - default) < 0.006
 
 
+def test_each_draw_held_out_is_covered_on_exactly_the_level_of_the_draws():
+    # experiments/bench/coverage_spread.py takes each posterior draw in turn as the truth and the interval of the
+    # others. By the rank argument (common practice, no source): with n draws and (1 - level) n / 2 = h whole, the
+    # bounds of the n - 1 others at positions p n are their h-th smallest and largest, so a draw of rank r among all
+    # n falls below the lower bound exactly when r <= h: every column is covered on exactly 1 - 2h / n of its draws.
+    import importlib.util
+    import pathlib
+
+    path = pathlib.Path(__file__).parents[1] / "experiments" / "bench" / "coverage_spread.py"
+    spec = importlib.util.spec_from_file_location("coverage_spread", path)
+    bench = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(bench)
+    rng = np.random.default_rng(3)
+    samples = rng.beta(2.0, 5.0, size=(200, 7))
+    c = bench.held_out_coverage(samples, 0.95)
+    assert c.shape == (200, 7)
+    np.testing.assert_array_equal(c.sum(axis=0), np.full(7, 190))  # h = 5 below and 5 above, in every column
+    # three seeds' figures: the mean of one held-out draw per seed, so exactly 0.95 on average here
+    figs = bench.three_seed([c, c[:, :3], c[:, 3:]], 4000, np.random.default_rng(0))
+    assert abs(figs.mean() - 0.95) < 0.002 and figs.min() < 0.95 < figs.max()
+
+
 def test_csv_refuses_a_clashing_name_and_marks_an_unidentified_answer(tmp_path):
     from intervgnn import WriteError
 
