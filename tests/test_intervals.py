@@ -739,9 +739,16 @@ def test_each_draw_held_out_is_covered_on_exactly_the_level_of_the_draws():
     c = bench.held_out_coverage(samples, 0.95)
     assert c.shape == (200, 7)
     np.testing.assert_array_equal(c.sum(axis=0), np.full(7, 190))  # h = 5 below and 5 above, in every column
-    # three seeds' figures: the mean of one held-out draw per seed, so exactly 0.95 on average here
-    figs = bench.three_seed([c, c[:, :3], c[:, 3:]], 4000, np.random.default_rng(0))
+    # three seeds' figures: one held-out draw per seed, every probability of the three counted once
+    figs = bench.three_seed([c, c[:, :3], c[:, 3:]], np.random.default_rng(0).integers(200, size=(4000, 3)))
     assert abs(figs.mean() - 0.95) < 0.002 and figs.min() < 0.95 < figs.max()
+    pooled = bench.three_seed([np.array([[True, True]]), np.array([[False, False, False, True]])], np.zeros((1, 2), int))
+    assert pooled[0] == 0.5  # 3 of 6 probabilities; the mean of the seeds' own shares would be 0.625
+    # the recorded run's three-seed subsets: seeds at 0.90, 0.95, 1.00, 0.95 give 0.95 (seeds 0 1 2), 0.933 (0 1 3),
+    # 0.95 (0 2 3) and 0.967 (1 2 3); the confounded shares of the two at 0.95 are 29 / 30 and 27 / 30
+    record = {"per_seed_coverage": [0.90, 0.95, 1.00, 0.95], "per_seed_confounded": [[9, 10], [10, 10], [10, 10], [8, 10]]}
+    assert bench.recorded_windows(record, 3, (0.94, 0.96), (0.95, 0.99)) == (0.5, 0.25)
+    assert bench.recorded_windows(record, 3, (0.94, 0.96), (0.97, 0.99)) == (0.5, 0.0)
 
 
 def test_csv_refuses_a_clashing_name_and_marks_an_unidentified_answer(tmp_path):

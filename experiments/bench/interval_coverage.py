@@ -87,8 +87,9 @@ def main():
                 hits, conf_hits, widths, offs, t0 = [], [], [], [], time.perf_counter()
                 edge_misses = 0  # misses of probabilities exactly 0 or 1 in the network
                 per_seed, missed = [], {}  # missed: seeds on which a query pattern missed somewhere
+                per_seed_conf = []  # per seed: (covered, probabilities) of the confounded subset
                 for seed in args.seeds:
-                    first = len(hits)
+                    first, first_conf = len(hits), len(conf_hits)
                     rows = net.sample(n, seed=seed)
                     if est_name == "plugin":
                         est = PluginEstimator().fit(rows, net.graph)
@@ -110,6 +111,8 @@ def main():
                         if q.confounded:
                             conf_hits.append(c)
                     per_seed.append(float(np.concatenate(hits[first:]).mean()))
+                    mine = conf_hits[first_conf:]
+                    per_seed_conf.append([int(sum(c.sum() for c in mine)), int(sum(c.size for c in mine))])
                 se = float(np.std(per_seed, ddof=1) / np.sqrt(len(per_seed))) if len(per_seed) > 1 else float("nan")
                 hits = np.concatenate(hits)
                 cov = float(hits.mean())
@@ -125,7 +128,9 @@ def main():
                                 "probabilities": int(hits.size), "coverage": cov, "coverage_se": se,
                                 "seeds": len(per_seed), "misses_at_0_or_1": edge, "confounded_coverage": conf,
                                 "confounded_probabilities": conf_n,
-                                "width": width, "miss_by_median": miss_by, "seconds": seconds})
+                                "width": width, "miss_by_median": miss_by, "seconds": seconds,
+                                "seed_list": list(args.seeds), "per_seed_coverage": per_seed,
+                                "per_seed_confounded": per_seed_conf})
                 print(f"{est_name:<8} {name:<22} {n:>7,} {len(queries):>7} {cov:>9.3f} {se:>6.3f} {edge:>7.2f} {conf:>9.3f} {conf_n:>7} {width:>7.4f} "
                       f"{miss_by:>8.4f} {seconds:>6.1f}", flush=True)
                 worst = max(missed, key=missed.get) if missed else None
