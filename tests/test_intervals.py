@@ -187,6 +187,27 @@ def test_rows_in_groups_get_calibrated_intervals():
             assert worst < 0.93
 
 
+def test_rows_take_their_shared_shapes_together_in_a_draw():
+    # mixed_dirichlet_rows decides symmetric or centred once per draw (one uniform number compared with each row's
+    # weight on the symmetric candidates): each row's own posterior is that of independent picks (a shared uniform
+    # below p_r has probability p_r; common practice, no source), but an average over rows that lean on the shared
+    # shape spreads as their picks move together. 40 rows seen 20 times at 0.9 / 0.1 make the centre; 20 rows seen
+    # once in each state are unsure whether to follow it (about 0.12 of their weight on symmetric priors).
+    counts = np.array([[18.0, 2.0]] * 40 + [[1.0, 1.0]] * 20)
+    priors = fit_row_priors(counts)
+    share = priors.weights[: len(AUTO_ALPHAS)].sum(axis=0)
+    assert 0.05 < share[45] < 0.5
+    draws = 4000
+    together = mixed_dirichlet_rows(np.random.default_rng(0), counts, draws, priors)
+    apart = np.stack([mixed_dirichlet_rows(np.random.default_rng(100 + r), counts, draws, priors)[:, r]
+                      for r in range(counts.shape[0])], axis=1)  # each row from its own call: independent picks
+    np.testing.assert_allclose(together.mean(axis=0), apart.mean(axis=0), atol=0.015)
+    np.testing.assert_allclose(together.std(axis=0), apart.std(axis=0), atol=0.015)
+    spread_together = together[:, 40:, 0].mean(axis=1).var()
+    spread_apart = apart[:, 40:, 0].mean(axis=1).var()
+    assert spread_together > 2.0 * spread_apart
+
+
 def test_odd_rows_keep_their_symmetric_spread():
     # 190 rows sharing a skewed shape (Dirichlet(8 m), m = (0.85, 0.1, 0.04, 0.01)) and 10 odd rows near uniform
     # (Dirichlet(3, 3, 3, 3)), 3 to 20 counts each: the odd rows take the symmetric candidates and must keep

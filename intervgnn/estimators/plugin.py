@@ -387,6 +387,15 @@ def kept_mixed_dirichlet_rows(cache: dict, key, rng: np.random.Generator, counts
     return mixed_dirichlet_rows(rng, counts, draws, *cache[key])
 
 
+def _pick(u: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """``[draws, R]`` candidate indices: ``u`` (uniform, ``[draws, R]``) against each row's cumulative ``weights`` ``[C, R]``."""
+    cum = np.cumsum(weights, axis=0)
+    pick = np.zeros(u.shape, dtype=np.intp)
+    for j in range(cum.shape[0] - 1):  # one [draws, R] comparison per candidate, not a [draws, C, R] array
+        pick += u > cum[j]
+    return pick
+
+
 def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: int,
                          priors: RowPriors | None = None, shapes: np.ndarray | None = None) -> np.ndarray:
     """``draws`` CPTs ``[draws, *counts.shape]``: every row drawn from its posterior under :func:`fit_row_priors`.
@@ -396,6 +405,24 @@ def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: in
     Dirichlet(counts + that prior's parameters). ``counts`` is CPT-shaped
     (states on the last axis); ``shapes`` are ``priors.shapes`` of its
     rows, computed where not given.
+
+    Whether a row's prior is a symmetric one or one centred on the shapes
+    the rows share is coupled across the variable's rows: each draw takes
+    one uniform number, and row r takes a symmetric candidate when it falls
+    below the row's weight on them, ``p_r``. So a row still does with
+    probability ``p_r`` and its own posterior is unchanged, but in one draw
+    the rows that lean on the shared shapes follow them together (rows of
+    similar ``p_r`` take the same kind; with ``p_r`` apart they can differ).
+    The strength and which centre are then picked per row, by its weights
+    within that kind. The joint is no longer the fitted model's posterior
+    (there, rows pick independently given the variable's weights): it is a
+    coupling chosen because rows that are rare because a parent value is
+    rare (a class of buyers few rows hold) are each drawn a little towards
+    the common rows' shapes, and all the same way; an answer that sums over
+    them adds those errors up, and with independent picks its spread took
+    them as independent. On insurance at 1,000 rows, a hundred seeds
+    (experiments/results/interval_coverage_seeds100.txt), the plug-in's
+    coverage went from 0.919 to 0.930.
     """
     counts = np.asarray(counts, dtype=np.float64)
     flat = counts.reshape(-1, counts.shape[-1])
@@ -405,11 +432,18 @@ def mixed_dirichlet_rows(rng: np.random.Generator, counts: np.ndarray, draws: in
         raise ValueError(f"shapes have {np.shape(shapes)[1:]} rows and states, the counts {flat.shape}")
     priors = fit_row_priors(flat) if priors is None else priors
     grid, n_grid, k = priors.grid, priors.grid.size, flat.shape[1]
-    cum = np.cumsum(priors.weights, axis=0)
-    u = rng.random((draws, flat.shape[0]))
-    pick = np.zeros(u.shape, dtype=np.intp)
-    for j in range(cum.shape[0] - 1):  # one [draws, R] comparison per candidate, not a [draws, C, R] array
-        pick += u > cum[j]
+    weights = priors.weights
+    n_rows = flat.shape[0]
+    if weights.shape[0] > n_grid:  # symmetric or centred: one uniform number a draw, compared with each row's p_r
+        symmetric_share = weights[:n_grid].sum(axis=0)
+        symmetric = rng.random((draws, 1)) < symmetric_share[None]
+        u = rng.random((draws, n_rows))
+        sym_pick = _pick(u, weights[:n_grid] / np.where(symmetric_share > 0, symmetric_share, 1.0))
+        centred_share = weights[n_grid:].sum(axis=0)
+        cen_pick = n_grid + _pick(u, weights[n_grid:] / np.where(centred_share > 0, centred_share, 1.0))
+        pick = np.where(symmetric, sym_pick, cen_pick)
+    else:
+        pick = _pick(rng.random((draws, n_rows)), weights)
     a = grid[pick % n_grid][..., None]  # [draws, R, 1]
     if priors.sizes.size:
         shapes = priors.shapes(flat) if shapes is None else shapes
