@@ -38,7 +38,7 @@ from .identify import identify  # the function (it shadows the subpackage's name
 from .table import Table
 from .userdata import GraphSpec, from_dataframe, load_graph, read_csv
 
-__version__ = "0.3.3"
+__version__ = "0.3.4"
 
 __all__ = [
     "__version__",
