@@ -61,14 +61,16 @@ import json
 import os
 import time
 
+import sys
+
 import numpy as np
 
 import intervgnn as ig
 from intervgnn.distribution import Interval
-from intervgnn.estimators import NeuralEstimator, PluginEstimator
 from intervgnn.eval.queries import make_query_set
 
-SHIPPED = ["cancer", "earthquake", "survey", "sachs", "child", "insurance", "alarm"]
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from interval_coverage import add_world_arguments, fit_estimator  # noqa: E402  (the world interval_coverage.py scores)
 
 
 def held_out_coverage(samples: np.ndarray, level: float) -> np.ndarray:
@@ -108,22 +110,16 @@ def recorded_windows(record: dict, k: int, band, confounded_band) -> tuple[float
     ok, both = [], []
     for sub in itertools.combinations(range(len(cov)), k):
         fig = float(np.mean([cov[i] for i in sub]))  # every seed has the same probabilities
-        ok.append(bool(in_band(np.array([fig]), band)[0]))
+        ok.append(bool(in_band(fig, band)))
         if conf[:, 1].sum() > 0:
             cfig = conf[list(sub), 0].sum() / conf[list(sub), 1].sum()
-            both.append(ok[-1] and bool(in_band(np.array([cfig]), confounded_band)[0]))
+            both.append(ok[-1] and bool(in_band(cfig, confounded_band)))
     return float(np.mean(ok)), (float(np.mean(both)) if both else float("nan"))
 
 
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--networks", nargs="+", default=SHIPPED)
-    ap.add_argument("--rows", nargs="+", type=int, default=[1000, 10_000])
-    ap.add_argument("--seeds", nargs="+", type=int, default=[0, 1, 2])
-    ap.add_argument("--queries", type=int, default=20, help="do-query patterns per network (as interval_coverage.py)")
-    ap.add_argument("--estimators", nargs="+", default=["plugin", "neural"], choices=["plugin", "neural"])
-    ap.add_argument("--level", type=float, default=0.95)
-    ap.add_argument("--draws", type=int, default=200, help="posterior draws (each is the truth once)")
+    add_world_arguments(ap)  # --draws: each of a seed's posterior draws is the truth once
     ap.add_argument("--trials", type=int, default=20_000, help="three-seed figures drawn per cell")
     ap.add_argument("--band", nargs=2, type=float, default=[0.92, 0.98])
     ap.add_argument("--confounded-band", nargs=2, type=float, default=[0.90, 0.99])
@@ -165,7 +161,7 @@ def main():
                 per_seed, per_seed_conf = [], []
                 for seed in args.seeds:
                     rows = net.sample(n, seed=seed)
-                    est = (PluginEstimator() if est_name == "plugin" else NeuralEstimator(seed=seed)).fit(rows, net.graph)
+                    est = fit_estimator(est_name, rows, net.graph, seed)
                     answers, conf = [], []
                     for q in queries:
                         d = est.query_interval(q.target, do=q.do_dict, given=q.given_dict, level=args.level,

@@ -62,8 +62,11 @@ def covered(dist, exact) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return inside.reshape(-1), (iv.upper - iv.lower).reshape(-1), off.reshape(-1)
 
 
-def main():
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+def add_world_arguments(ap: argparse.ArgumentParser) -> None:
+    """The arguments that fix what is scored: networks, rows, seeds, queries, estimators, level and draws.
+
+    coverage_spread.py takes the same ones, so that its calibrated figures are of the world scored here.
+    """
     ap.add_argument("--networks", nargs="+", default=SHIPPED)
     ap.add_argument("--rows", nargs="+", type=int, default=[1000, 10_000])
     ap.add_argument("--seeds", nargs="+", type=int, default=[0, 1, 2])
@@ -71,6 +74,16 @@ def main():
     ap.add_argument("--estimators", nargs="+", default=["plugin", "neural"], choices=["plugin", "neural"])
     ap.add_argument("--level", type=float, default=0.95)
     ap.add_argument("--draws", type=int, default=200, help="posterior draws")
+
+
+def fit_estimator(name: str, rows, graph, seed: int):
+    """The estimator ``name`` ("plugin" or "neural") fitted to ``rows`` as this bench fits it (the neural one seeded)."""
+    return (PluginEstimator() if name == "plugin" else NeuralEstimator(seed=seed)).fit(rows, graph)
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    add_world_arguments(ap)
     ap.add_argument("--timing", action="store_true", help="also time interval against point answers on alarm")
     ap.add_argument("--out", default=None)
     args = ap.parse_args()
@@ -91,15 +104,10 @@ def main():
                 for seed in args.seeds:
                     first, first_conf = len(hits), len(conf_hits)
                     rows = net.sample(n, seed=seed)
-                    if est_name == "plugin":
-                        est = PluginEstimator().fit(rows, net.graph)
-                        draws = args.draws
-                    else:
-                        est = NeuralEstimator(seed=seed).fit(rows, net.graph)
-                        draws = args.draws
+                    est = fit_estimator(est_name, rows, net.graph, seed)
                     for q in queries:
                         d = est.query_interval(q.target, do=q.do_dict, given=q.given_dict, level=args.level,
-                                               draws=draws, seed=seed)
+                                               draws=args.draws, seed=seed)
                         c, w, off = covered(d, q.exact)
                         p = np.asarray(q.exact.probs).reshape(-1)
                         edge_misses += int(((p == 0.0) | (p == 1.0))[~c].sum())
